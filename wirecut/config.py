@@ -333,7 +333,8 @@ def _machine(t: dict) -> MachineSpec:
     )
     if not (m.travel_y_mm[0] <= m.bed_y_mm < m.travel_y_mm[1]):
         raise ProfileError(
-            f"machine.bed_y_mm = {m.bed_y_mm} must lie within machine.travel_y_mm {list(m.travel_y_mm)}"
+            f"machine.bed_y_mm = {m.bed_y_mm} must lie within "
+            f"machine.travel_y_mm {list(m.travel_y_mm)}"
         )
     return m
 

@@ -23,7 +23,7 @@ class WirecutError(Exception):
 
 
 class ProfileError(WirecutError, ValueError):
-    """The job profile (TOML) is malformed, has an unknown key, a wrong type or an impossible value."""
+    """The job profile (TOML) is malformed, or has an unknown key, wrong type or impossible value."""
 
 
 class MeshError(WirecutError, ValueError):
