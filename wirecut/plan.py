@@ -1,0 +1,333 @@
+"""The pipeline: mesh + job -> Plan, and the writer of a plan's files.
+
+Data flows one way: intake -> surface analysis -> wire direction -> pieces (each with its
+ruled fit) -> stock allocation -> cut programs -> (in-memory replay for the prediction) ->
+files. This is the only module that knows every stage.
+"""
+
+from __future__ import annotations
+
+import json
+from collections.abc import Callable
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+
+from wirecut.config import JobProfile
+from wirecut.findings import Finding, Severity
+
+__all__ = ["PiecePlan", "Plan", "make_plan", "write_plan", "plan_json"]
+
+Progress = Callable[[str, int, int], None]
+
+
+def _no_progress(stage: str, done: int, total: int) -> None:
+    return None
+
+
+@dataclass(frozen=True)
+class PiecePlan:
+    """One piece with its program and the predicted error of that program.
+
+    Attributes
+    ----------
+    piece : Piece
+        Region, block, frame and fitted cut.
+    program : CutProgram or None
+        The cut program; None when the piece cannot be cut on this machine (see findings).
+    toolpath : ToolpathReport or None
+        Kerf ranges, dwell, overshoot, face profiles and tower paths.
+    prediction : ReplayResult or None
+        The in-memory replay of ``program`` against the target: the deviation the program
+        will make, kerf and lag included.
+    samples : TargetSamples
+        The target samples of the piece (machine frame) the deviations refer to.
+    gcode : str or None
+        The program text in the job's dialect.
+    """
+
+    piece: object
+    program: object
+    toolpath: object
+    prediction: object
+    samples: object
+    gcode: str | None
+
+    @property
+    def deviation(self):
+        """The deviation report a user should believe: the replayed program, else the fit."""
+        if self.prediction is not None:
+            return self.prediction.report
+        return self.piece.fit.report
+
+
+@dataclass(frozen=True)
+class Plan:
+    """The whole job's result. Every number of plan.json comes from here."""
+
+    target: object
+    analysis: object
+    job: JobProfile
+    direction: object
+    split: object
+    allocation: object
+    pieces: tuple[PiecePlan, ...]
+    findings: tuple[Finding, ...]
+
+    def summary(self) -> dict:
+        """The ``summary`` part of plan.json."""
+        return plan_json(self)["summary"]
+
+    def table(self) -> list[str]:
+        """Terminal summary: the totals, then one line per piece."""
+        s = self.summary()
+        tol = self.job.tolerance
+        lines = [
+            f"wirecut plan  (tolerance {tol.surface_mm:g} mm, {tol.policy.value})",
+            f"  feasible area      {s['feasible_area_fraction'] * 100:8.1f} %",
+            f"  max deviation      {s['max_deviation_mm']:8.3f} mm",
+            f"  pieces             {s['pieces']:8d}   (lower bound {self.split.lower_bound})",
+            f"  blocks used        {s['blocks_used']:8d}",
+            f"  foam / kept        {s['foam_volume_m3']:8.3f} / {s['kept_volume_m3']:.3f} m^3"
+            f"   (waste {s['waste_fraction'] * 100:.1f} %)",
+            f"  machine time       {s['machine_time_s'] / 60:8.1f} min",
+            "  piece  stock       max dev   rms     feasible  time",
+        ]
+        for pp in self.pieces:
+            r = pp.deviation
+            t = pp.program.machine_time_s / 60 if pp.program is not None else float("nan")
+            lines.append(
+                f"  {pp.piece.id:<6} {pp.piece.stock or '-':<10} {r.max_abs_mm:7.3f} "
+                f"{r.rms_mm:7.3f}   {r.feasible_area_fraction * 100:6.1f} %  {t:6.1f} min"
+            )
+        return lines
+
+
+def make_plan(
+    target,
+    job: JobProfile,
+    intake_findings: list[Finding] | tuple[Finding, ...] = (),
+    progress: Progress | None = None,
+) -> Plan:
+    """Plan the whole job for a target surface (part frame, mm)."""
+    from dataclasses import replace
+
+    from wirecut.gcode.replay import replay
+    from wirecut.gcode.writer import write_gcode
+    from wirecut.geometry.cuttability import analyse_surface
+    from wirecut.pieces.split import split_pieces
+    from wirecut.pieces.stock import allocate
+    from wirecut.ruled.direction import search_direction
+    from wirecut.ruled.sampling import sample_target
+    from wirecut.toolpath.build import build_program
+
+    progress = progress or _no_progress
+    findings: list[Finding] = list(intake_findings)
+    progress("analysis", 0, 1)
+    analysis = analyse_surface(target, job)
+    progress("analysis", 1, 1)
+    direction = search_direction(target, analysis, job)
+    split = split_pieces(target, analysis, direction, job, progress=progress)
+    findings.extend(split.findings)
+    allocation = allocate(split.pieces, job)
+    findings.extend(getattr(allocation, "findings", ()))
+    stock_of = {p.piece_id: p.stock for p in allocation.placements}
+
+    plans: list[PiecePlan] = []
+    n = len(split.pieces)
+    for i, piece in enumerate(split.pieces):
+        progress("programs", i, n)
+        piece = replace(piece, stock=stock_of.get(piece.id, piece.stock))
+        program, report, tf = build_program(piece, job)
+        findings.extend(tf)
+        shift = getattr(report, "placement_shift_mm", None) if report is not None else None
+        if shift is not None and np.any(np.asarray(shift) != 0):
+            piece = _shifted(piece, np.asarray(shift, float))
+        samples = sample_target(target, piece.part_to_machine, piece.region_plan)
+        prediction = None
+        text = None
+        if program is not None:
+            prediction = replay(program, piece, job, samples)
+            text = write_gcode(program, job)
+        plans.append(PiecePlan(piece, program, report, prediction, samples, text))
+    progress("programs", n, n)
+
+    tol = job.tolerance.surface_mm
+    for pp in plans:
+        r = pp.deviation
+        if r.max_abs_mm > tol:
+            share = 1.0 - r.feasible_area_fraction
+            findings.append(
+                Finding(
+                    "out-of-tolerance",
+                    f"max deviation {r.max_abs_mm:.3f} mm exceeds the {tol:g} mm tolerance on "
+                    f"{share * 100:.1f}% of the piece's area",
+                    piece=pp.piece.id,
+                )
+            )
+        if r.undercut_area_fraction > 0:
+            findings.append(
+                Finding(
+                    "undercut",
+                    f"{r.undercut_area_fraction * 100:.1f}% of the piece's area cannot be reached "
+                    "by the wire from the waste side",
+                    piece=pp.piece.id,
+                )
+            )
+    runner = getattr(direction, "runner_up", None)
+    if runner is not None:
+        findings.append(
+            Finding(
+                "direction-choice",
+                f"wire at {np.degrees(direction.best.angle_rad):.0f} deg in plan; runner-up "
+                f"{np.degrees(runner.angle_rad):.0f} deg: {direction.reason}",
+                severity=Severity.INFO,
+            )
+        )
+    return Plan(target, analysis, job, direction, split, allocation, tuple(plans), tuple(findings))
+
+
+def _shifted(piece, shift: np.ndarray):
+    """The piece re-placed on the machine by ``shift`` (3,) mm (machine frame)."""
+    from dataclasses import replace
+
+    from wirecut.pieces.piece import Block
+    from wirecut.ruled.model import RuledCut
+
+    b = piece.block
+    block = Block(
+        (b.x_mm[0] + shift[0], b.x_mm[1] + shift[0]),
+        (b.y_mm[0] + shift[1], b.y_mm[1] + shift[1]),
+        (b.z_mm[0] + shift[2], b.z_mm[1] + shift[2]),
+    )
+    m = piece.part_to_machine.copy()
+    m[:3, 3] += shift
+    c = piece.fit.cut
+    cut = RuledCut(
+        c.left + shift[:2], c.right + shift[:2], c.z_left + shift[2], c.z_right + shift[2], m
+    )
+    fit = replace(piece.fit, cut=cut)
+    return replace(piece, block=block, part_to_machine=m, fit=fit)
+
+
+# --------------------------------------------------------------------------- plan.json
+
+
+def _f(x) -> float:
+    """A JSON-safe float rounded to 6 decimals (deterministic output)."""
+    v = float(x)
+    return round(v, 6) if np.isfinite(v) else None
+
+
+def plan_json(plan: Plan) -> dict:
+    """plan.json as a dict, with every key of the interface contract."""
+    job = plan.job
+    target_area = float(plan.analysis.to_json()["target_area_mm2"])
+    feasible_area = 0.0
+    max_dev = 0.0
+    pieces = []
+    for pp in plan.pieces:
+        piece = pp.piece
+        r = pp.deviation
+        feasible_area += r.feasible_area_fraction * r.area_mm2
+        max_dev = max(max_dev, r.max_abs_mm)
+        entry = {
+            "id": piece.id,
+            "gcode": f"gcode/{piece.id}.ngc" if pp.gcode is not None else None,
+            "dxf": "pieces.dxf",
+            "region_part_xy_mm": [[_f(x), _f(y)] for x, y in np.asarray(piece.region_plan)],
+            "wire_direction_part": [_f(v) for v in piece.frame.wire_part],
+            "part_to_machine": [[_f(v) for v in row] for row in piece.part_to_machine],
+            "faces_z_mm": [_f(piece.block.z_mm[0]), _f(piece.block.z_mm[1])],
+            "block_machine_mm": {
+                "x": [_f(v) for v in piece.block.x_mm],
+                "y": [_f(v) for v in piece.block.y_mm],
+                "z": [_f(v) for v in piece.block.z_mm],
+            },
+            "blank_size_mm": [_f(v) for v in piece.block.size_mm],
+            "stock": piece.stock,
+            "max_deviation_mm": _f(r.max_abs_mm),
+            "rms_deviation_mm": _f(r.rms_mm),
+            "p95_deviation_mm": _f(r.p95_mm),
+            "gouge_area_fraction": _f(r.gouge_area_fraction),
+            "excess_area_fraction": _f(r.excess_area_fraction),
+            "undercut_area_fraction": _f(r.undercut_area_fraction),
+            "feasible_area_fraction": _f(r.feasible_area_fraction),
+            "fit_max_deviation_mm": _f(piece.fit.report.max_abs_mm),
+            "machine_time_s": _f(pp.program.machine_time_s) if pp.program is not None else None,
+        }
+        if pp.toolpath is not None and hasattr(pp.toolpath, "to_json"):
+            entry["toolpath"] = pp.toolpath.to_json()
+        pieces.append(entry)
+    alloc = plan.allocation
+    foam = float(alloc.foam_volume_m3)
+    kept = float(alloc.kept_volume_m3)
+    summary = {
+        "feasible_area_fraction": _f(min(1.0, feasible_area / target_area) if target_area else 0),
+        "max_deviation_mm": _f(max_dev),
+        "pieces": len(plan.pieces),
+        "piece_lower_bound": int(plan.split.lower_bound),
+        "blocks_used": int(alloc.blocks_used),
+        "block_lower_bound": int(alloc.volume_lower_bound),
+        "foam_volume_m3": _f(foam),
+        "foam_mass_kg": _f(foam * job.foam.density_kg_m3),
+        "kept_volume_m3": _f(kept),
+        "waste_fraction": _f(1.0 - kept / foam if foam > 0 else 0.0),
+        "machine_time_s": _f(
+            sum(pp.program.machine_time_s for pp in plan.pieces if pp.program is not None)
+        ),
+    }
+    m = job.machine
+    return {
+        "units": "mm",
+        "tolerance_mm": job.tolerance.surface_mm,
+        "policy": job.tolerance.policy.value,
+        "machine": {
+            "span_mm": m.span_mm,
+            "travel_x_mm": list(m.travel_x_mm),
+            "travel_y_mm": list(m.travel_y_mm),
+            "dialect": m.dialect.value,
+        },
+        "summary": summary,
+        "analysis": plan.analysis.to_json(),
+        "pieces": pieces,
+        "findings": [f.to_json() for f in plan.findings],
+    }
+
+
+def write_plan(plan: Plan, out_dir: Path, progress: Progress | None = None) -> dict:
+    """Write every file of a plan into ``out_dir`` (a fresh folder); return plan.json's dict."""
+    from wirecut.export.dxf import write_dxf
+    from wirecut.export.rational import rational_mesh, write_deviation_map, write_rational_mesh
+
+    progress = progress or _no_progress
+    out_dir = Path(out_dir)
+    (out_dir / "gcode").mkdir(parents=True, exist_ok=True)
+    n = len(plan.pieces)
+    for i, pp in enumerate(plan.pieces):
+        progress("writing", i, n)
+        if pp.gcode is not None:
+            (out_dir / "gcode" / f"{pp.piece.id}.ngc").write_text(pp.gcode, encoding="ascii")
+    write_dxf([pp.piece for pp in plan.pieces], plan.allocation, out_dir / "pieces.dxf")
+    mesh = rational_mesh([(pp.piece.fit, pp.piece.part_to_machine) for pp in plan.pieces])
+    write_rational_mesh(mesh, out_dir / "rationalized.ply")
+    xy = np.vstack([pp.samples.plan_xy for pp in plan.pieces])
+    dev = np.concatenate([pp.deviation.signed for pp in plan.pieces])
+    write_deviation_map(
+        xy,
+        dev,
+        plan.job.tolerance.surface_mm,
+        out_dir / "deviation.png",
+        outlines=[np.asarray(pp.piece.region_plan) for pp in plan.pieces],
+    )
+    data = plan_json(plan)
+    (out_dir / "plan.json").write_text(
+        json.dumps(data, indent=2, sort_keys=True) + "\n", encoding="utf-8"
+    )
+    from wirecut.export.report import write_report
+    from wirecut.export.report_data import report_data
+
+    write_report(report_data(plan, data), out_dir)
+    progress("writing", n, n)
+    return data
