@@ -1,0 +1,110 @@
+"""The greedy strip sweep against exhaustive search over all cut positions on a grid."""
+
+from __future__ import annotations
+
+import itertools
+import math
+
+import numpy as np
+import pytest
+
+from wirecut.pieces.split import greedy_strips, strip_count_bound, sweep_cuts
+
+
+def reach_oracle(reach: np.ndarray, step: float, lo: float):
+    """Strip [a, b] is feasible when its width is at most the smallest reach of the grid cells
+    it overlaps: monotone by construction (a sub-strip overlaps fewer cells and is narrower)."""
+
+    def feasible(a: float, b: float) -> bool:
+        i0 = int(math.floor((a - lo) / step + 1e-9))
+        i1 = int(math.ceil((b - lo) / step - 1e-9))
+        cells = reach[max(i0, 0) : max(min(i1, len(reach)), i0 + 1)]
+        return (b - a) <= float(cells.min()) + 1e-9
+
+    return feasible
+
+
+def brute_force(n: int, step: float, lo: float, hi: float, feasible, max_w: float, min_w: float):
+    """Fewest strips by trying every subset of the interior grid positions, smallest first."""
+    grid = [lo + k * step for k in range(1, n)]
+    for m in range(0, len(grid) + 1):
+        for inner in itertools.combinations(grid, m):
+            cuts = [lo, *inner, hi]
+            widths = np.diff(cuts)
+            if np.any(widths > max_w + 1e-9):
+                continue
+            # every strip but the last must reach the minimum width (the last one is widened)
+            if np.any(widths[:-1] < min_w - 1e-9):
+                continue
+            if all(feasible(a, b) for a, b in itertools.pairwise(cuts)):
+                return m + 1
+    return None
+
+
+@pytest.mark.parametrize("seed", range(40))
+@pytest.mark.parametrize("min_cells", [1, 2])
+def test_greedy_matches_exhaustive_search(seed: int, min_cells: int) -> None:
+    rng = np.random.default_rng(seed)
+    n = int(rng.integers(6, 13))  # 5..11 interior positions: at most 2^11 subsets
+    step = 10.0
+    lo = 0.0
+    hi = n * step
+    reach = rng.uniform(min_cells * step, 6 * step, size=n)
+    reach = np.floor(reach / step) * step  # reaches on the grid
+    feasible = reach_oracle(reach, step, lo)
+    max_w = float(rng.integers(3, 7)) * step
+    min_w = min_cells * step
+    plan = greedy_strips(lo, hi, feasible, max_w, min_w, step)
+    best = brute_force(n, step, lo, hi, feasible, max_w, min_w)
+    assert best is not None
+    # exhaustive search over all cut positions on the grid (reference), greedy stays ahead
+    # (Kleinberg and Tardos, Algorithm Design, 2006, ch. 4.1)
+    assert plan.feasible.all()
+    assert plan.count == best
+    assert plan.cuts[0] == lo and plan.cuts[-1] >= hi
+    assert np.all(np.diff(plan.cuts) <= max_w + 1e-9)
+
+
+def test_infeasible_zone_gets_min_width_strips() -> None:
+    # a zone where nothing reaches the minimum width: covered by min-width strips marked
+    # infeasible, the rest by feasible ones (construction)
+    step = 5.0
+    reach = np.full(40, 100.0)
+    reach[10:14] = 1.0  # 50..70 mm: reach below the 20 mm minimum
+    feasible = reach_oracle(reach, step, 0.0)
+    plan = greedy_strips(0.0, 200.0, feasible, 100.0, 20.0, step)
+    bad = np.flatnonzero(~plan.feasible)
+    assert len(bad) >= 1
+    for k in bad:
+        # a min-width strip (pieces.min_width_mm rule of docs/methods-pieces.md)
+        assert plan.cuts[k + 1] - plan.cuts[k] == pytest.approx(20.0)
+        assert plan.cuts[k] < 70.0 and plan.cuts[k + 1] > 50.0
+    assert plan.cuts[-1] >= 200.0
+
+
+def test_everything_feasible_uses_max_width() -> None:
+    # ceil(extent / max width) strips when nothing limits but the width (arithmetic)
+    plan = greedy_strips(0.0, 1000.0, lambda a, b: True, 300.0, 100.0, 1.0)
+    assert plan.count == math.ceil(1000.0 / 300.0)
+    assert np.allclose(plan.cuts, [0.0, 300.0, 600.0, 900.0, 1000.0])
+
+
+def test_last_narrow_strip_is_widened_to_min_width() -> None:
+    plan = greedy_strips(0.0, 620.0, lambda a, b: True, 300.0, 100.0, 1.0)
+    # 300 + 300 + 20 mm: the 20 mm rest is widened to the 100 mm minimum (min-width rule)
+    assert plan.count == 3
+    assert plan.cuts[-1] == pytest.approx(700.0)
+
+
+def test_sweep_cuts_equal_parts() -> None:
+    # 2500 mm with 20 mm margins and a 1140 mm limit: ceil(2500 / 1100) = 3 equal parts
+    cuts = sweep_cuts(0.0, 2500.0, 1140.0, 20.0)
+    assert len(cuts) == 4
+    assert np.allclose(np.diff(cuts), 2500.0 / 3)
+    assert np.all(np.diff(cuts) + 40.0 <= 1140.0)
+
+
+def test_strip_count_bound_uses_p95_reach() -> None:
+    reach = np.linspace(100.0, 200.0, 101)  # p95 = 195 mm (numpy linear percentile)
+    assert strip_count_bound(1000.0, reach, 1400.0) == math.ceil(1000.0 / 195.0)
+    assert strip_count_bound(1000.0, None, 300.0) == 4  # ceil(1000 / 300)
