@@ -1,0 +1,1 @@
+"""The bundled demo scenario (meshes and job profile), installed as package data."""
