@@ -8,6 +8,7 @@ output files left half-written.
 from __future__ import annotations
 
 import json
+import os
 import sys
 from pathlib import Path
 
@@ -24,7 +25,7 @@ app = typer.Typer(
     help="Plan hot-wire cutting of EPS casting molds from a mesh.",
 )
 
-EXIT_OK, EXIT_FINDINGS, EXIT_REFUSED = 0, 1, 2
+EXIT_OK, EXIT_FINDINGS, EXIT_REFUSED, EXIT_INTERNAL = 0, 1, 2, 3
 
 
 class _Refused(Exception):
