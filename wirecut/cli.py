@@ -129,7 +129,6 @@ def check(
 ) -> None:
     """Fast surface analysis: curvature, cuttability map, feasible fraction; no G-code."""
     from wirecut.check import run_check, write_check_outputs
-
     from wirecut.export.safe_output import check_output_dir
 
     console = _Console(quiet)
@@ -152,10 +151,9 @@ def check(
 
 
 def _run_plan(mesh: Path, jobp, out: Path, units, console: _Console, json_stdout: bool) -> int:
+    from wirecut.export.safe_output import check_output_dir, output_dir
     from wirecut.geometry.mesh import load_target
     from wirecut.plan import make_plan, write_plan
-
-    from wirecut.export.safe_output import check_output_dir, output_dir
 
     check_output_dir(out)
     target, intake = load_target(mesh, jobp, units)
@@ -291,6 +289,11 @@ def main(argv: list[str] | None = None) -> int:
             "out of memory: decimate the mesh (e.g. trimesh simplify_quadric_decimation) and retry"
         )
         code = EXIT_REFUSED
+    except Exception as exc:  # a defect of wirecut, not of the input: still one line
+        if os.environ.get("WIRECUT_DEBUG"):
+            raise
+        _err(f"internal error ({exc.__class__.__name__}: {_one_line(exc)}); set WIRECUT_DEBUG=1")
+        code = EXIT_INTERNAL
     if argv is None:
         sys.exit(code)
     return code
