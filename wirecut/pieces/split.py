@@ -24,10 +24,41 @@ from __future__ import annotations
 import math
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
+import shapely
+from shapely.geometry import Polygon
 
-__all__ = ["StripPlan", "greedy_strips", "sweep_cuts", "strip_count_bound"]
+from wirecut.config import JobProfile
+from wirecut.findings import Finding, Severity
+from wirecut.geometry.frames import DirectionFrame, plan_basis, rigid
+from wirecut.pieces.piece import Block, Piece
+from wirecut.pieces.region import (
+    extent_along,
+    footprint,
+    kept_volume_mm3,
+    plan_axes,
+    polygons_of,
+    strip,
+)
+
+__all__ = [
+    "StripPlan",
+    "DirectionRow",
+    "SplitResult",
+    "greedy_strips",
+    "sweep_cuts",
+    "strip_count_bound",
+    "split_limits",
+    "split_pieces",
+    "COARSE_ACCEPT",
+]
+
+#: During the bisection a strip passes when its coarse fit stays within this share of the
+#: tolerance: the coarse lattice may miss up to 5 % of the tolerance of the true maximum
+#: (the spacing is chosen for that, see ``_coarse_spacing``).
+COARSE_ACCEPT = 0.95
 
 
 @dataclass(frozen=True)
@@ -168,3 +199,395 @@ def strip_count_bound(
         if r.size:
             w = min(w, float(np.percentile(r, 95)))
     return max(1, int(math.ceil(extent_mm / w - 1e-9)))
+
+
+# --------------------------------------------------------------------------- the pieces
+
+
+@dataclass(frozen=True)
+class DirectionRow:
+    """One candidate wire direction as split.
+
+    Attributes
+    ----------
+    angle_deg : float
+        Plan angle of the wire, degrees from e1 toward e2.
+    strips, pieces : int
+        Strips across the wire, and pieces after the splits along the sweep.
+    lower_bound : int
+        :func:`strip_count_bound` for this direction.
+    max_deviation_mm : float
+        Largest final-fit deviation over its pieces, mm (NaN when not refitted).
+    chosen : bool
+        True for the direction kept.
+    """
+
+    angle_deg: float
+    strips: int
+    pieces: int
+    lower_bound: int
+    max_deviation_mm: float
+    chosen: bool
+
+
+@dataclass(frozen=True)
+class SplitResult:
+    """The mold split into pieces for the kept wire direction.
+
+    Attributes
+    ----------
+    pieces : tuple of Piece
+        In order across the wire, then along the sweep. ``piece.extra`` holds ``strip_mm``
+        (wire plan coordinates of its two faces), ``feasible`` (False when even the minimum
+        width failed tolerance), ``kept_volume_mm3`` (foam under its surface down to the
+        base plane) and ``holes_plan`` (list of (k, 2) mm outlines of holes, part plan).
+    findings : tuple of Finding
+    infeasible_area_mm2 : float
+        Plan area of the strips that fail tolerance at the minimum width, mm^2.
+    lower_bound : int
+        Lower bound on the strip count of the kept direction (:func:`strip_count_bound`).
+    directions : tuple of DirectionRow
+        Every candidate direction tried.
+    footprint_area_mm2 : float
+        Plan area of the target's footprint, mm^2.
+    cuts_mm : (n + 1,) float, mm
+        Strip cut positions along the wire (plan coordinate ``p . wire``) of the kept direction.
+    """
+
+    pieces: tuple[Piece, ...]
+    findings: tuple[Finding, ...]
+    infeasible_area_mm2: float
+    lower_bound: int
+    directions: tuple[DirectionRow, ...]
+    footprint_area_mm2: float
+    cuts_mm: np.ndarray
+
+
+def split_limits(job: JobProfile) -> tuple[float, float]:
+    """(widest strip along the wire, longest blank along the sweep), mm.
+
+    Along the wire: the usable span (span - 2 face_to_tower) and the longest horizontal side
+    (length or width) of any stock kind. Along the sweep: the x travel minus two home
+    clearances, and the same longest horizontal stock side. Blanks stand upright here; the
+    allocation may still lay one on its side.
+    """
+    m = job.machine
+    side = max(max(s.size_mm[0], s.size_mm[1]) for s in job.stock)
+    max_w = min(job.usable_width_mm, side)
+    travel = m.travel_x_mm[1] - m.travel_x_mm[0] - 2.0 * m.home_clearance_mm
+    return float(max_w), float(min(travel, side))
+
+
+def _candidates(direction: Any) -> list[DirectionFrame]:
+    """The frames to try: a DirectionFrame, a sequence of them, or a choice with
+    ``best`` and ``runner_up``."""
+    if isinstance(direction, DirectionFrame):
+        return [direction]
+    if hasattr(direction, "best"):
+        out = [direction.best]
+        runner = getattr(direction, "runner_up", None)
+        if runner is not None and abs(runner.angle_rad - direction.best.angle_rad) > 1e-9:
+            out.append(runner)
+        return out
+    return list(direction)
+
+
+class _Surface:
+    """The target prepared once for all strips: plan triangles, heights, a search tree."""
+
+    def __init__(self, target: Any, job: JobProfile, rotation: np.ndarray) -> None:
+        self.target = target
+        self.vertices = np.asarray(target.vertices, float)
+        self.faces = np.asarray(target.faces, np.int64)
+        self.up = np.asarray(target.up, float)
+        self.rotation = np.asarray(rotation, float)
+        # machine y of every vertex before placement: the same for every horizontal wire
+        self.h = self.vertices @ self.rotation[1]
+        self.base_y = float(self.h.min()) - job.mold.base_mm
+        self.fp = footprint(self.vertices, self.faces, self.up)
+        e1, e2, _ = plan_basis(self.up)
+        uv = np.column_stack([self.vertices @ e1, self.vertices @ e2])
+        tri = uv[self.faces]
+        self.tree = shapely.STRtree(shapely.polygons(tri))
+        edges = np.linalg.norm(tri - np.roll(tri, 1, axis=1), axis=2)
+        self.edge_mm = float(np.median(edges)) if len(edges) else 1.0
+
+    def faces_in(self, region: Any) -> np.ndarray:
+        """Indices of the faces whose plan triangle meets ``region``."""
+        return np.unique(self.tree.query(region, predicate="intersects"))
+
+    def top(self, region: Any) -> float:
+        """Highest machine y (before placement) of the faces over ``region``, mm."""
+        idx = self.faces_in(region)
+        if len(idx) == 0:
+            return self.base_y
+        return float(self.h[self.faces[idx]].max())
+
+    def kept(self, region: Any) -> float:
+        """Foam under the surface down to the base plane inside ``region``, mm^3."""
+        idx = self.faces_in(region)
+        if len(idx) == 0:
+            return 0.0
+        return kept_volume_mm3(
+            self.vertices, self.faces[idx], self.up, self.rotation, self.base_y, region
+        )
+
+
+def _place(
+    surf: _Surface, region: Any, frame: DirectionFrame, z_lo: float, z_hi: float, job: JobProfile
+) -> tuple[Block, np.ndarray]:
+    """The block of a region and its placement part -> machine.
+
+    z (along the wire): the strip ``[z_lo, z_hi]``, centred between the tower planes.
+    x (sweep): the region's extent plus ``sweep_margin_mm`` at each end, centred in the x
+    travel. y: from the common base plane (``mold.base_mm`` under the whole surface's lowest
+    point) standing on the bed at ``bed_y_mm``, to the region's top plus ``top_clearance_mm``.
+    """
+    sweep, _ = plan_axes(frame, surf.up)
+    x0, x1 = extent_along(region, sweep)
+    margin = job.pieces.sweep_margin_mm
+    bx0, bx1 = x0 - margin, x1 + margin
+    m = job.machine
+    tx = 0.5 * (m.travel_x_mm[0] + m.travel_x_mm[1]) - 0.5 * (bx0 + bx1)
+    ty = m.bed_y_mm - surf.base_y
+    tz = 0.5 * m.span_mm - 0.5 * (z_lo + z_hi)
+    top = surf.top(region) + job.pieces.top_clearance_mm
+    block = Block((bx0 + tx, bx1 + tx), (m.bed_y_mm, top + ty), (z_lo + tz, z_hi + tz))
+    return block, rigid(frame.rotation, np.array([tx, ty, tz]))
+
+
+def _coarse_spacing(surf: _Surface, area_mm2: float, job: JobProfile, kappa: float) -> float:
+    """Lattice spacing (mm) for the bisection fits: about 4000 samples per strip, but fine
+    enough that a smooth maximum is missed by at most 5 % of the tolerance,
+    ``h <= sqrt(8 * 0.05 * tol / kappa)`` (nearest lattice point to a smooth extremum)."""
+    tol = job.tolerance.surface_mm
+    h = math.sqrt(max(area_mm2, 1.0) / 4000.0)
+    h = min(h, math.sqrt(8.0 * 0.05 * tol / max(kappa, 1e-9)))
+    return float(max(h, surf.edge_mm, 0.5))
+
+
+def _kappa(analysis: Any) -> float:
+    """95th percentile of the larger principal curvature, 1/mm (0 when unknown)."""
+    k1 = getattr(analysis, "k1", None)
+    k2 = getattr(analysis, "k2", None)
+    if k1 is None or k2 is None:
+        curv = getattr(analysis, "curvature", None)
+        k1 = getattr(curv, "k1", None)
+        k2 = getattr(curv, "k2", None)
+    if k1 is None or k2 is None:
+        return 0.0
+    k = np.maximum(np.abs(np.asarray(k1, float)), np.abs(np.asarray(k2, float)))
+    k = k[np.isfinite(k)]
+    return float(np.percentile(k, 95)) if k.size else 0.0
+
+
+def _reach(analysis: Any) -> np.ndarray | None:
+    r = getattr(analysis, "wire_reach_mm", None)
+    return None if r is None else np.asarray(r, float)
+
+
+def _default_fitter() -> Callable[..., Any]:
+    from wirecut.ruled.fit import fit_cut
+
+    return fit_cut
+
+
+def _fit(fitter, target, region, block, transform, job, spacing):
+    from wirecut.ruled.sampling import sample_target
+
+    samples = sample_target(target, transform, region=region, spacing_mm=spacing)
+    if len(samples) == 0:
+        return None
+    return fitter(
+        samples, block.z_mm[0], block.z_mm[1], transform, job.tolerance, x_range=block.x_mm
+    )
+
+
+def _layout(
+    surf: _Surface, frame: DirectionFrame, cuts: np.ndarray, job: JobProfile, max_len: float
+) -> list[tuple[int, Polygon, float, float]]:
+    """(strip index, polygon, z_lo, z_hi) of every piece: strips, splits along the sweep,
+    connected parts. Neighbours are clipped at the same coordinate, so they share cut lines."""
+    sweep, wire = plan_axes(frame, surf.up)
+    out = []
+    for k in range(len(cuts) - 1):
+        a, b = float(cuts[k]), float(cuts[k + 1])
+        band = strip(surf.fp, wire, a, b)
+        if band.is_empty:
+            continue
+        x0, x1 = extent_along(band, sweep)
+        xs = sweep_cuts(x0, x1, max_len, job.pieces.sweep_margin_mm)
+        for i in range(len(xs) - 1):
+            part = band if len(xs) == 2 else strip(band, sweep, xs[i], xs[i + 1])
+            for poly in polygons_of(part, min_area_mm2=1e-3):
+                out.append((k, poly, a, b))
+    return out
+
+
+def split_pieces(
+    target: Any,
+    analysis: Any,
+    direction: Any,
+    job: JobProfile,
+    progress: Callable[[str, int, int], None] | None = None,
+    *,
+    fitter: Callable[..., Any] | None = None,
+    resolution_mm: float | None = None,
+) -> SplitResult:
+    """Split the mold into pieces that one ruled cut each can make within tolerance.
+
+    Parameters
+    ----------
+    target : TargetSurface
+        ``vertices (n, 3) mm part``, ``faces (m, 3)``, ``face_normals``, ``up``.
+    analysis : SurfaceAnalysis or None
+        Supplies ``wire_reach_mm (n,)`` for the lower bound and curvatures for the coarse
+        sample spacing; None is allowed.
+    direction : DirectionFrame, sequence of DirectionFrame, or DirectionChoice
+        Candidate wire directions; with a choice, its ``best`` and ``runner_up`` are both split
+        and the one with fewer pieces kept (ties: smaller max deviation of the final fits).
+    job : JobProfile
+    progress : callable (stage, done, total), optional
+    fitter : callable, optional
+        ``fit(samples, z_left, z_right, part_to_machine, tolerance, x_range) -> RuledFit``;
+        default :func:`wirecut.ruled.fit.fit_cut`.
+    resolution_mm : float, optional
+        Bisection grid step along the wire; default 1 % of the widest strip, at least 1 mm.
+
+    Returns
+    -------
+    SplitResult
+    """
+    fitter = fitter or _default_fitter()
+    frames = _candidates(direction)
+    if not frames:
+        raise ValueError("split_pieces needs at least one wire direction")
+    surf = _Surface(target, job, frames[0].rotation)
+    if surf.fp.is_empty:
+        from wirecut.errors import JobError
+
+        raise JobError("the target has no plan-view area to cut (every face is vertical)")
+    max_w, max_len = split_limits(job)
+    min_w = job.pieces.min_width_mm
+    step = resolution_mm or max(1.0, 0.01 * max_w)
+    tol = job.tolerance.surface_mm
+    kappa = _kappa(analysis)
+    report = progress or (lambda stage, done, total: None)
+
+    trials = []
+    for frame in frames:
+        sweep, wire = plan_axes(frame, surf.up)
+        lo, hi = extent_along(surf.fp, wire)
+
+        def feasible(a: float, b: float, frame=frame, wire=wire) -> bool:
+            region = strip(surf.fp, wire, a, b)
+            if region.is_empty:
+                return True
+            block, transform = _place(surf, region, frame, a, b, job)
+            spacing = _coarse_spacing(surf, region.area, job, kappa)
+            fit = _fit(fitter, target, region, block, transform, job, spacing)
+            return fit is None or fit.report.max_abs_mm <= COARSE_ACCEPT * tol
+
+        plan = greedy_strips(lo, hi, feasible, max_w, min_w, step)
+        layout = _layout(surf, frame, plan.cuts, job, max_len)
+        bound = strip_count_bound(hi - lo, _reach(analysis), max_w)
+        trials.append((frame, plan, layout, bound))
+        report("split", len(trials), len(frames))
+
+    fewest = min(len(t[2]) for t in trials)
+    tied = [t for t in trials if len(t[2]) == fewest]
+    built = {}
+    for t in tied:
+        built[id(t)] = _build(surf, t, target, job, fitter, report)
+    best = min(tied, key=lambda t: built[id(t)][1])
+    pieces, max_dev, findings, bad_area = built[id(best)]
+    rows = tuple(
+        DirectionRow(
+            float(np.degrees(t[0].angle_rad)),
+            t[1].count,
+            len(t[2]),
+            t[3],
+            built[id(t)][1] if id(t) in built else float("nan"),
+            t is best,
+        )
+        for t in trials
+    )
+    frame, plan, layout, bound = best
+    if plan.count < bound:
+        findings.append(
+            Finding(
+                "strips-below-bound",
+                f"{plan.count} strips is fewer than the wire-reach bound {bound}: "
+                "the reach estimate is conservative here",
+                severity=Severity.INFO,
+            )
+        )
+    return SplitResult(
+        pieces=tuple(pieces),
+        findings=tuple(findings),
+        infeasible_area_mm2=bad_area,
+        lower_bound=bound,
+        directions=rows,
+        footprint_area_mm2=float(surf.fp.area),
+        cuts_mm=plan.cuts,
+    )
+
+
+def _build(surf, trial, target, job, fitter, report):
+    """Final pieces of one direction: blocks, full-density fits, volumes, findings."""
+    frame, plan, layout, _ = trial
+    pieces: list[Piece] = []
+    findings: list[Finding] = []
+    bad_area = 0.0
+    max_dev = 0.0
+    tallest = max(s.size_mm[2] for s in job.stock)
+    for n, (k, poly, a, b) in enumerate(layout):
+        report("fit", n, len(layout))
+        block, transform = _place(surf, poly, frame, a, b, job)
+        fit = _fit(fitter, target, poly, block, transform, job, None)
+        if fit is None:
+            continue
+        pid = f"P{len(pieces) + 1:02d}"
+        ok = bool(plan.feasible[k])
+        if not ok:
+            bad_area += poly.area
+            findings.append(
+                Finding(
+                    "strip-infeasible",
+                    f"{poly.area / 1e6:.3f} m^2 cannot be cut within "
+                    f"{job.tolerance.surface_mm:g} mm even at the minimum width "
+                    f"{job.pieces.min_width_mm:g} mm "
+                    f"(max deviation {fit.report.max_abs_mm:.2f} mm)",
+                    piece=pid,
+                )
+            )
+        height = block.size_mm[2]
+        if height > tallest:
+            findings.append(
+                Finding(
+                    "blank-too-tall",
+                    f"the blank is {height:.0f} mm high, above every stock height "
+                    f"(at most {tallest:.0f} mm): it must be cut from a block on its side",
+                    piece=pid,
+                )
+            )
+        if block.y_mm[1] > job.machine.travel_y_mm[1]:
+            findings.append(
+                Finding(
+                    "above-travel",
+                    f"the blank's top at machine y = {block.y_mm[1]:.0f} mm is above the "
+                    f"y travel ({job.machine.travel_y_mm[1]:g} mm)",
+                    piece=pid,
+                )
+            )
+        max_dev = max(max_dev, float(fit.report.max_abs_mm))
+        extra = {
+            "strip_mm": (a, b),
+            "feasible": ok,
+            "kept_volume_mm3": surf.kept(poly),
+            "holes_plan": [np.asarray(r.coords)[:-1] for r in poly.interiors],
+        }
+        outline = np.asarray(poly.exterior.coords)[:-1]
+        pieces.append(Piece(pid, outline, frame, transform, block, fit, stock=None, extra=extra))
+    report("fit", len(layout), len(layout))
+    return pieces, max_dev, findings, bad_area
