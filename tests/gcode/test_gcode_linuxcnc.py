@@ -1,0 +1,183 @@
+"""The written G-code read by an independent interpreter: Debian's linuxcnc-uspace RS274/NGC.
+
+The interpreter is fetched by .ci/linuxcnc.sh into <repo>/.cache/linuxcnc (or the folder in
+WIRECUT_LINUXCNC_CACHE) and run through tests/gcode/linuxcnc_driver.py under Debian's own
+/usr/bin/python3. These tests skip, with the reason printed, only where it cannot be had.
+"""
+
+import dataclasses
+import json
+import os
+import subprocess
+from pathlib import Path
+
+import numpy as np
+import pytest
+from gcode_programs import job_for, random_program, rectangle_program, tapered_program
+
+from wirecut.config import Dialect, FeedRule
+from wirecut.gcode.writer import normalize_program, write_gcode
+from wirecut.toolpath.program import CutProgram, Op
+
+REPO = Path(__file__).resolve().parents[2]
+DRIVER = Path(__file__).with_name("linuxcnc_driver.py")
+SYSTEM_PYTHON = Path("/usr/bin/python3")
+POS_TOL_MM = 0.001  # brief: every reported position within 0.001 mm of the writer's
+XYUV_COLUMNS = [0, 1, 6, 7]  # interpreter order X Y Z A B C U V W (canon straight_feed)
+
+
+def _cache() -> Path:
+    return Path(os.environ.get("WIRECUT_LINUXCNC_CACHE", REPO / ".cache" / "linuxcnc"))
+
+
+def _module_present(cache: Path) -> bool:
+    return any((cache / "usr/lib/python3/dist-packages").glob("gcode*.so"))
+
+
+@pytest.fixture(scope="module")
+def interpreter():
+    """A function running the interpreter on a program text; skips if it cannot be had."""
+    cache = _cache()
+    if not SYSTEM_PYTHON.exists():
+        reason = f"{SYSTEM_PYTHON} is missing: the linuxcnc gcode module is built for it"
+        print(reason)
+        pytest.skip(reason)
+    fetch_log = ""
+    if not _module_present(cache):
+        script = REPO / ".ci" / "linuxcnc.sh"
+        done = subprocess.run(
+            ["bash", str(script), str(cache)], capture_output=True, text=True, timeout=300
+        )
+        fetch_log = (done.stdout + done.stderr).strip()
+    if not _module_present(cache):
+        reason = f"linuxcnc-uspace could not be fetched into {cache}: {fetch_log}"
+        print(reason)
+        pytest.skip(reason)
+    env = dict(os.environ)
+    env["LD_LIBRARY_PATH"] = f"{cache}/usr/lib:{cache}/usr/lib/x86_64-linux-gnu"
+    env.pop("PYTHONPATH", None)
+    env.pop("PYTHONHOME", None)
+    counter = iter(range(10**6))
+
+    def run(text: str, tmp: Path, axes: str = "XYUV") -> dict:
+        path = tmp / f"program{next(counter)}.ngc"
+        path.write_text(text, encoding="ascii")
+        done = subprocess.run(
+            [str(SYSTEM_PYTHON), str(DRIVER), str(cache), str(path), axes],
+            capture_output=True,
+            text=True,
+            env=env,
+            timeout=120,
+        )
+        assert done.returncode == 0, done.stderr
+        return json.loads(done.stdout)
+
+    return run
+
+
+def _expected_moves(program: CutProgram, job) -> tuple[list[str], np.ndarray, np.ndarray]:
+    """Kinds, positions (k, 4) mm and durations (k,) s of the motion lines as written."""
+    prog = normalize_program(program, job)
+    motion = (prog.ops == Op.RAPID) | (prog.ops == Op.FEED)
+    kinds = ["traverse"] + ["traverse" if o == Op.RAPID else "feed" for o in prog.ops[motion]]
+    towers = np.vstack([prog.start[None, :], prog.towers[motion]])
+    seconds = np.concatenate([[0.0], prog.duration_s[motion]])
+    return kinds, towers, seconds
+
+
+def _check_parse(result: dict) -> None:
+    # result 1 = INTERP_EXIT (program ended by M2); errors are > MIN_ERROR
+    # (linuxcnc interp_return.hh, as used by rs274/glcanon.py load_preview)
+    assert result["result"] <= result["min_error"], (result["error"], result["error_line"])
+    assert result["result"] == 1
+    assert result["unexpected"] == []
+
+
+PROGRAMS = {
+    "rectangle": rectangle_program,
+    "tapered": tapered_program,
+    "random-300": lambda: random_program(np.random.default_rng(3), 300, job_for()),
+    "random-40": lambda: random_program(np.random.default_rng(11), 40, job_for()),
+}
+
+
+@pytest.mark.parametrize("name", sorted(PROGRAMS))
+def test_inverse_time_output_parses_and_positions_agree(name, interpreter, tmp_path):
+    job = job_for(Dialect.XYUV_INVERSE_TIME)
+    program = PROGRAMS[name]()
+    result = interpreter(write_gcode(program, job), tmp_path)
+    _check_parse(result)
+    kinds, towers, seconds = _expected_moves(program, job)
+    assert [m["kind"] for m in result["moves"]] == kinds
+    got = np.array([m["xyzabcuvw_mm"] for m in result["moves"]])
+    np.testing.assert_allclose(got[:, XYUV_COLUMNS], towers, atol=POS_TOL_MM)
+    assert np.all(got[:, [2, 3, 4, 5, 8]] == 0.0)  # no other axis is ever commanded
+    # durations from the interpreter's own feed rate: in G93 it turns F into a rate over the
+    # XYZ length of the move, or the UVW length where XYZ does not move (the rate times the
+    # move time gives back that length: linuxcnc's inverse-time conversion, observed here)
+    prev = towers[:-1]
+    feeds = np.array([k == "feed" for k in kinds])[1:]
+    step = (towers[1:] - prev)[feeds]
+    length = np.where(
+        np.hypot(step[:, 0], step[:, 1]) > 0,
+        np.hypot(step[:, 0], step[:, 1]),
+        np.hypot(step[:, 2], step[:, 3]),
+    )
+    rate_mm_min = np.array([m["feed_rate"] for m in result["moves"][1:]])[feeds] * 25.4
+    np.testing.assert_allclose(60.0 * length / rate_mm_min, seconds[1:][feeds], rtol=1e-3)
+    prog = normalize_program(program, job)
+    dwell = prog.duration_s[prog.ops == Op.DWELL]
+    np.testing.assert_allclose([d["seconds"] for d in result["dwells"]], dwell, rtol=1e-5)
+    assert "interpreter: feed mode set to inverse time" in result["comments"]
+
+
+def test_hostile_header_cannot_inject_moves(interpreter, tmp_path):
+    job = job_for(Dialect.XYUV_INVERSE_TIME)
+    program = rectangle_program()
+    hostile = dataclasses.replace(
+        program, header=(("stock", "x) G0 X-999 ("), ("note", "MSG, run now\nG0 X-5"))
+    )
+    result = interpreter(write_gcode(hostile, job), tmp_path)
+    _check_parse(result)
+    kinds, towers, _ = _expected_moves(program, job)
+    got = np.array([m["xyzabcuvw_mm"] for m in result["moves"]])
+    np.testing.assert_allclose(got[:, XYUV_COLUMNS], towers, atol=POS_TOL_MM)
+    assert not any(c.startswith("MSG") for c in result["comments"])
+
+
+@pytest.mark.parametrize("rule", [FeedRule.FIRST_TOWER, FeedRule.ALL_AXES])
+def test_units_per_minute_with_xyuv_letters(rule, interpreter, tmp_path):
+    # With the letters X Y U V the interpreter reads the four-axis dialect as written; its
+    # G94 rate is F itself (mm/min, reported in in/min).
+    job = job_for(Dialect.FOUR_AXIS_UNITS_PER_MINUTE, rule, ("X", "Y", "U", "V"))
+    program = tapered_program()
+    text = write_gcode(program, job)
+    result = interpreter(text, tmp_path)
+    _check_parse(result)
+    kinds, towers, _ = _expected_moves(program, job)
+    got = np.array([m["xyzabcuvw_mm"] for m in result["moves"]])
+    assert [m["kind"] for m in result["moves"]] == kinds
+    np.testing.assert_allclose(got[:, XYUV_COLUMNS], towers, atol=POS_TOL_MM)
+    written_f = [float(s.rsplit("F", 1)[1]) for s in text.splitlines() if s.startswith("G1 ")]
+    rates = [m["feed_rate"] * 25.4 for m in result["moves"] if m["kind"] == "feed"]
+    np.testing.assert_allclose(rates, written_f, rtol=1e-9)
+
+
+def test_units_per_minute_with_z_a_letters_parses(interpreter, tmp_path):
+    # The default letters X Y Z A: the interpreter reads Z as a linear axis (mm) and A as a
+    # rotary one (degrees, not converted): the numbers agree, the meaning (second tower) is
+    # the controller's configuration, which this interpreter cannot know.
+    job = job_for(Dialect.FOUR_AXIS_UNITS_PER_MINUTE, FeedRule.FIRST_TOWER)
+    program = rectangle_program()
+    result = interpreter(write_gcode(program, job), tmp_path, axes="XYZA")
+    _check_parse(result)
+    _, towers, _ = _expected_moves(program, job)
+    got = np.array([m["xyzabcuvw_mm"] for m in result["moves"]])
+    np.testing.assert_allclose(got[:, [0, 1, 2, 3]], towers, atol=POS_TOL_MM)
+
+
+def test_interpreter_refuses_what_the_reader_refuses(interpreter, tmp_path):
+    # an independent check of one refusal: G1 without F in G93 (RS274/NGC G93 rule)
+    result = interpreter("G21 G93\nG1 X1 Y1 U1 V1\nM2\n", tmp_path)
+    assert result["result"] > result["min_error"]
+    assert "inverse time" in result["error"].lower()
