@@ -1,0 +1,287 @@
+"""Discrete curvature of the target surface, per vertex.
+
+Gaussian curvature
+    ``K = angle defect / mixed Voronoi area`` (Meyer, Desbrun, Schroeder, Barr 2003, "Discrete
+    differential-geometry operators for triangulated 2-manifolds", sec. 3.3 and 4). The defect is
+    ``2 pi - sum of the corner angles`` at the vertex; the mixed area is the Voronoi area of the
+    vertex in each non-obtuse triangle, half the triangle for the obtuse corner and a quarter for
+    the other two. The mixed areas of all vertices add up to the surface area exactly, so they are
+    also the vertex weights of every area fraction. Boundary vertices (on an edge used by one face)
+    get NaN: their defect measures the boundary's turning, not curvature. Vertices one ring from
+    the boundary keep their value: their star is complete, so the defect is exact there.
+
+Principal curvatures and directions
+    A quadric ``h(u, v) = a u^2 + b u v + c v^2 + d u + e v`` fitted by least squares to the
+    vertex's 2-ring in the tangent frame of its area-weighted normal (the linear terms absorb a
+    tilted normal). The shape operator of the graph ``(u, v, h)`` at the origin,
+    ``S = I^-1 II`` with ``I = [[1+d^2, de], [de, 1+e^2]]`` and
+    ``II = [[2a, b], [b, 2c]] / sqrt(1+d^2+e^2)`` (do Carmo, sec. 3-3, graph of a function), gives
+    ``k1 >= k2``, the mean curvature ``(k1 + k2) / 2`` and the principal directions. Sign: a normal
+    curvature is positive where the surface bends toward the waste-side normal (a valley seen from
+    the waste side), negative on a crest. All vertices are fitted in one batch of 5x5 normal
+    equations, in chunks to bound memory.
+
+Asymptotic directions
+    Where the surface is saddle-shaped (``K < 0`` by the defect and ``k1 > 0 > k2`` by the fit),
+    Euler's formula ``k_n(t) = k1 cos^2 t + k2 sin^2 t`` vanishes at ``tan^2 t = -k1 / k2``: the two
+    directions ``cos t dir1 +- sin t dir2`` along which a straight line is tangent to second order.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+from scipy import sparse
+
+from wirecut.geometry.mesh import TargetSurface, boundary_vertex_mask
+
+__all__ = ["Curvature", "vertex_curvature", "angle_defects", "mixed_areas", "tangent_frames"]
+
+_CHUNK = 20_000  # vertices per batch of the quadric fit
+_IU = np.triu_indices(5)
+
+
+@dataclass(frozen=True, eq=False)
+class Curvature:
+    """Per-vertex curvature of a target surface (part frame).
+
+    Attributes
+    ----------
+    gaussian : (n,) float, 1/mm^2
+        Angle defect / mixed area; NaN at boundary vertices.
+    interior : (n,) bool
+        True where ``gaussian`` is defined (not on the boundary).
+    vertex_area : (n,) float, mm^2
+        Mixed Voronoi area; sums to the surface area.
+    k1, k2 : (n,) float, 1/mm
+        Principal curvatures from the 2-ring quadric fit, ``k1 >= k2`` (sign: see module doc).
+    mean : (n,) float, 1/mm
+        ``(k1 + k2) / 2``.
+    dir1, dir2 : (n, 3) float, unit, part frame
+        Principal directions of ``k1`` and ``k2``, tangent to the surface.
+    asymptotic : (n, 2, 3) float, unit, part frame
+        The two directions of zero normal curvature; NaN where the surface is not saddle-shaped.
+    normals : (n, 3) float, unit, part frame
+        Vertex normals used for the fit, toward the waste side.
+    """
+
+    gaussian: np.ndarray
+    interior: np.ndarray
+    vertex_area: np.ndarray
+    k1: np.ndarray
+    k2: np.ndarray
+    mean: np.ndarray
+    dir1: np.ndarray
+    dir2: np.ndarray
+    asymptotic: np.ndarray
+    normals: np.ndarray
+
+    def normal_curvature(self, direction: np.ndarray) -> np.ndarray:
+        """(n,) 1/mm: Euler's formula ``k1 cos^2 t + k2 sin^2 t`` for tangent directions (n, 3)."""
+        c = np.einsum("ij,ij->i", direction, self.dir1)
+        s = np.einsum("ij,ij->i", direction, self.dir2)
+        r2 = c * c + s * s
+        r2 = np.where(r2 > 0, r2, 1.0)
+        return (self.k1 * c * c + self.k2 * s * s) / r2
+
+
+def _corner_angles(tri: np.ndarray) -> np.ndarray:
+    """(m, 3) radians: the interior angle at each corner of triangles (m, 3, 3)."""
+    a = tri[:, 1] - tri[:, 0]
+    b = tri[:, 2] - tri[:, 1]
+    c = tri[:, 0] - tri[:, 2]
+
+    def ang(u: np.ndarray, v: np.ndarray) -> np.ndarray:
+        return np.arctan2(np.linalg.norm(np.cross(u, v), axis=1), np.einsum("ij,ij->i", u, v))
+
+    return np.column_stack([ang(a, -c), ang(b, -a), ang(c, -b)])
+
+
+def angle_defects(vertices: np.ndarray, faces: np.ndarray) -> np.ndarray:
+    """(n,) radians: ``2 pi`` minus the sum of corner angles at each vertex.
+
+    On a closed genus-0 mesh these add up to ``4 pi`` (Descartes' theorem on total angular defect;
+    discrete Gauss-Bonnet).
+    """
+    ang = _corner_angles(vertices[faces])
+    total = np.bincount(faces.ravel(), weights=ang.ravel(), minlength=len(vertices))
+    return 2.0 * np.pi - total
+
+
+def mixed_areas(vertices: np.ndarray, faces: np.ndarray) -> np.ndarray:
+    """(n,) mm^2: mixed Voronoi area of each vertex (Meyer et al. 2003, fig. 4).
+
+    Non-obtuse triangle: the Voronoi part ``(|PR|^2 cot Q + |PQ|^2 cot R) / 8`` at corner P;
+    obtuse triangle: half its area to the obtuse corner, a quarter to each other corner.
+    """
+    tri = vertices[faces]
+    ang = _corner_angles(tri)
+    area = 0.5 * np.linalg.norm(np.cross(tri[:, 1] - tri[:, 0], tri[:, 2] - tri[:, 0]), axis=1)
+    # squared length of the edge opposite each corner
+    opp2 = np.column_stack(
+        [
+            ((tri[:, 2] - tri[:, 1]) ** 2).sum(1),
+            ((tri[:, 0] - tri[:, 2]) ** 2).sum(1),
+            ((tri[:, 1] - tri[:, 0]) ** 2).sum(1),
+        ]
+    )
+    cot = 1.0 / np.tan(np.clip(ang, 1e-12, np.pi - 1e-12))
+    # corner i gets (|edge opp j|^2 cot j + |edge opp k|^2 cot k) / 8 for the other corners j, k
+    vor = (
+        np.column_stack(
+            [
+                opp2[:, 1] * cot[:, 1] + opp2[:, 2] * cot[:, 2],
+                opp2[:, 2] * cot[:, 2] + opp2[:, 0] * cot[:, 0],
+                opp2[:, 0] * cot[:, 0] + opp2[:, 1] * cot[:, 1],
+            ]
+        )
+        / 8.0
+    )
+    obtuse = ang > np.pi / 2
+    any_obtuse = obtuse.any(axis=1)
+    share = np.where(obtuse, 0.5, 0.25) * area[:, None]
+    per_corner = np.where(any_obtuse[:, None], share, vor)
+    return np.bincount(faces.ravel(), weights=per_corner.ravel(), minlength=len(vertices))
+
+
+def tangent_frames(normals: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Two unit tangents (n, 3) each, with (t1, t2, normal) right-handed."""
+    ref = np.zeros_like(normals)
+    use_x = np.abs(normals[:, 0]) < 0.9
+    ref[use_x, 0] = 1.0
+    ref[~use_x, 1] = 1.0
+    t1 = ref - np.einsum("ij,ij->i", ref, normals)[:, None] * normals
+    t1 /= np.linalg.norm(t1, axis=1, keepdims=True)
+    t2 = np.cross(normals, t1)
+    return t1, t2
+
+
+def _two_ring(faces: np.ndarray, n: int) -> sparse.csr_matrix:
+    """Sparse (n, n) pattern of the 2-ring neighbourhood of each vertex (self excluded)."""
+    i = faces[:, [0, 1, 2, 1, 2, 0]].ravel()
+    j = faces[:, [1, 2, 0, 0, 1, 2]].ravel()
+    one = sparse.csr_matrix((np.ones(len(i), np.float32), (i, j)), shape=(n, n))
+    one.data[:] = 1.0
+    two = one + one @ one
+    two.setdiag(0)
+    two.eliminate_zeros()
+    two.sort_indices()
+    return two.tocsr()
+
+
+def _fit_quadrics(
+    vertices: np.ndarray, normals: np.ndarray, ring: sparse.csr_matrix
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Least-squares quadric coefficients (n, 5) in frames (t1, t2, normal); returns coef, t1, t2."""
+    n = len(vertices)
+    t1, t2 = tangent_frames(normals)
+    coef = np.zeros((n, 5))
+    indptr, indices = ring.indptr, ring.indices
+    for start in range(0, n, _CHUNK):
+        stop = min(n, start + _CHUNK)
+        lo, hi = indptr[start], indptr[stop]
+        cols = indices[lo:hi]
+        rows = np.repeat(np.arange(start, stop), np.diff(indptr[start : stop + 1]))
+        d = vertices[cols] - vertices[rows]
+        u = np.einsum("ij,ij->i", d, t1[rows])
+        v = np.einsum("ij,ij->i", d, t2[rows])
+        h = np.einsum("ij,ij->i", d, normals[rows])
+        # scale each row's coordinates by its neighbourhood size for conditioning
+        scale = np.sqrt(np.bincount(rows - start, weights=u * u + v * v, minlength=stop - start))
+        scale = np.where(
+            scale > 0, scale / np.sqrt(np.maximum(np.diff(indptr[start : stop + 1]), 1)), 1.0
+        )
+        s = scale[rows - start]
+        us, vs, hs = u / s, v / s, h / s
+        phi = np.column_stack([us * us, us * vs, vs * vs, us, vs])
+        # the 15 distinct products of the normal matrix and the 5 of the right-hand side,
+        # summed per vertex by one sparse product (rows of a CSR chunk are contiguous)
+        prod = np.column_stack([phi[:, _IU[0]] * phi[:, _IU[1]], phi * hs[:, None]])
+        pick = sparse.csr_matrix(
+            (np.ones(hi - lo), np.arange(hi - lo), indptr[start : stop + 1] - lo),
+            shape=(stop - start, hi - lo),
+        )
+        sums = pick @ prod
+        ata = np.zeros((stop - start, 5, 5))
+        ata[:, _IU[0], _IU[1]] = sums[:, :15]
+        ata[:, _IU[1], _IU[0]] = sums[:, :15]
+        atb = sums[:, 15:]
+        # a tiny ridge keeps vertices with too few neighbours solvable (they come out flat)
+        ata += 1e-9 * np.eye(5)
+        sol = np.linalg.solve(ata, atb[:, :, None])[:, :, 0]
+        sc = scale
+        sol[:, :3] /= sc[:, None]  # h/s = a (u/s)^2 s ... undo the scaling of second-order terms
+        coef[start:stop] = sol
+    return coef, t1, t2
+
+
+def vertex_curvature(target: TargetSurface) -> Curvature:
+    """Gaussian, principal and mean curvature, principal and asymptotic directions per vertex.
+
+    Parameters
+    ----------
+    target : TargetSurface
+        Normals oriented toward the waste side.
+
+    Returns
+    -------
+    Curvature
+        See the module docstring for the methods and the sign convention.
+    """
+    v, f = target.vertices, target.faces
+    n = len(v)
+    boundary = boundary_vertex_mask(f, n)
+    area = mixed_areas(v, f)
+    defect = angle_defects(v, f)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        gauss = np.where(~boundary & (area > 0), defect / area, np.nan)
+    interior = np.isfinite(gauss)
+
+    normals = target.vertex_normals
+    coef, t1, t2 = _fit_quadrics(v, normals, _two_ring(f, n))
+    a, b, c, d, e = coef.T
+    E, F, G = 1.0 + d * d, d * e, 1.0 + e * e
+    g = np.sqrt(1.0 + d * d + e * e)
+    L, M, N = 2.0 * a / g, b / g, 2.0 * c / g
+    det_i = E * G - F * F
+    kk = (L * N - M * M) / det_i
+    hh = (E * N - 2.0 * F * M + G * L) / (2.0 * det_i)
+    disc = np.sqrt(np.maximum(hh * hh - kk, 0.0))
+    k1, k2 = hh + disc, hh - disc
+
+    def direction(k: np.ndarray, fallback: np.ndarray) -> np.ndarray:
+        # (II - k I) x = 0: two candidate rows of the null space, take the longer
+        r1 = np.column_stack([M - k * F, -(L - k * E)])
+        r2 = np.column_stack([N - k * G, -(M - k * F)])
+        r = np.where((np.abs(r1).sum(1) >= np.abs(r2).sum(1))[:, None], r1, r2)
+        xu = t1 + d[:, None] * normals
+        xv = t2 + e[:, None] * normals
+        vec = r[:, :1] * xu + r[:, 1:] * xv
+        vec -= np.einsum("ij,ij->i", vec, normals)[:, None] * normals
+        norm = np.linalg.norm(vec, axis=1, keepdims=True)
+        ok = norm[:, 0] > 1e-12 * (np.abs(r).sum(1) + 1e-300)
+        return np.where(ok[:, None], vec / np.where(norm > 0, norm, 1.0), fallback)
+
+    dir1 = direction(k1, t1)
+    dir2 = np.cross(normals, dir1)
+    # keep dir2 the k2 direction exactly orthogonal to dir1 in the tangent plane
+    saddle = (k1 > 0) & (k2 < 0) & ~(interior & ~(gauss < 0))
+    asym = np.full((n, 2, 3), np.nan)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        theta = np.arctan(np.sqrt(-k1[saddle] / k2[saddle]))
+    ct, st = np.cos(theta)[:, None], np.sin(theta)[:, None]
+    asym[saddle, 0] = ct * dir1[saddle] + st * dir2[saddle]
+    asym[saddle, 1] = ct * dir1[saddle] - st * dir2[saddle]
+    return Curvature(
+        gaussian=gauss,
+        interior=interior,
+        vertex_area=area,
+        k1=k1,
+        k2=k2,
+        mean=0.5 * (k1 + k2),
+        dir1=dir1,
+        dir2=dir2,
+        asymptotic=asym,
+        normals=normals,
+    )

@@ -1,0 +1,477 @@
+"""Where a straight hot wire can cut the target within tolerance: classes, wire reach, undercut.
+
+Classes (per vertex, ``kind``)
+    0 developable: the less-curved principal curvature ``k_min = |K| / max(|k1|, |k2|)`` is so
+    small that bending a flat sheet along the other direction leaves a sagitta
+    ``k_min L^2 / 8`` within the allowed error ``s`` over the characteristic length
+    ``L = min(span - 2 face_to_tower, surface extent)``: ``k_min <= 8 s / L^2``;
+    1 ruled: ``K < 0`` (two asymptotic directions: a straight line lies in the surface to first
+    order); 2 synclastic: ``K > 0``. ``K`` is the angle-defect curvature at interior vertices and
+    ``k1 k2`` of the quadric fit on the boundary.
+
+Allowed error ``s`` of a straight line against the surface, by policy
+    ``balanced``: the best line equioscillates (Chebyshev alternation), so a chord whose sagitta is
+    ``s = 2 tol`` deviates at most ``tol`` each way; ``no-gouge``: the line may not enter the part,
+    so the whole sagitta counts, ``s = tol``.
+
+Wire reach (per vertex, mm)
+    Synclastic points: the chord in the direction of least normal curvature ``k = min(|k1|, |k2|)``
+    whose sagitta is ``s``: ``w = 2 sqrt(R^2 - (R - s)^2)``, ``R = 1/k`` (standard circle
+    geometry; ``w = 2R`` when ``s >= R``). Developable and ruled points have a direction of zero
+    normal curvature (the ruling, or the two asymptotic directions), so second order gives no
+    limit: the reach is **measured** by marching along the tangent line through the vertex in
+    both directions, in steps ``h = max(mean edge, extent / 128)``, taking the signed distance of
+    each line point from the surface (nearest vertex, its tangent plane plus the second-order term
+    ``(k1 (t.dir1)^2 + k2 (t.dir2)^2) / 2`` of its fitted quadric) and stopping where the line
+    leaves the surface (lateral offset from the nearest vertex over twice the mean edge). The reach
+    is the longest window of samples through the vertex whose range of distances is at most ``s``
+    (the line may shift along the normal but is not tilted: conservative for lopsided windows).
+    Marching runs on at most 2000 vertices chosen deterministically (the lowest-index candidate per
+    cell of a plan grid); the others take the reach of the nearest marched vertex and their own
+    direction most parallel to its direction. Every reach is capped at the surface's extent (the
+    diagonal of its bounding box).
+
+Undercut (per vertex)
+    The area-weighted normal looks away from the waste direction ``w`` (``n . w <= 0``), or the
+    ray from the vertex toward ``w`` meets the target again. That ray is parallel to ``w``, so it
+    is cast exactly as a point-in-triangle test in plan view, with triangles bucketed on a grid:
+    a triangle whose plan projection holds the vertex and whose height there exceeds the vertex's
+    by more than ``1e-6`` of the extent occludes it. Every vertex is tested.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+from scipy.spatial import cKDTree
+
+from wirecut.config import JobProfile, Policy
+from wirecut.geometry.curvature import Curvature, vertex_curvature
+from wirecut.geometry.frames import to_plan
+from wirecut.geometry.mesh import TargetSurface, edge_use
+
+__all__ = [
+    "SurfaceAnalysis",
+    "analyse_surface",
+    "allowed_sagitta",
+    "sagitta_reach",
+    "occluded_vertices",
+    "DEVELOPABLE",
+    "RULED",
+    "SYNCLASTIC",
+    "MAX_MARCHED",
+]
+
+DEVELOPABLE, RULED, SYNCLASTIC = 0, 1, 2
+#: At most this many vertices have their reach measured by marching.
+MAX_MARCHED = 2000
+_STEPS = 128  # samples per side of a marched line at most
+_BATCH = 128  # marched lines per vectorized batch
+
+
+@dataclass(frozen=True, eq=False)
+class SurfaceAnalysis:
+    """Cuttability of a target surface, per vertex (part frame).
+
+    Attributes
+    ----------
+    curvature : Curvature
+        Curvature of the target.
+    kind : (n,) int8
+        0 developable, 1 ruled (K < 0), 2 synclastic (K > 0).
+    wire_reach_mm : (n,) float, mm
+        Longest straight wire through the vertex within tolerance under the policy.
+    reach_direction : (n, 3) float, unit, part frame
+        Tangent direction of that wire.
+    undercut : (n,) bool
+        The vertex cannot be reached by a wire coming from the waste side.
+    vertex_area : (n,) float, mm^2
+        Mixed Voronoi area (weights of every area fraction).
+    marched : (n,) bool
+        True where the reach was measured by marching (not filled from a neighbour or formula).
+    tolerance_mm : float
+        The job's surface tolerance, mm.
+    policy : Policy
+        The job's fitting policy.
+    allowed_sagitta_mm : float
+        Range of deviation a straight line may span: 2 tol (balanced) or tol (no-gouge), mm.
+    length_mm : float
+        Characteristic length L of the developable rule, mm.
+    developable_limit_per_mm : float
+        ``8 s / L^2``, 1/mm: the largest less-curved principal curvature counted developable.
+    extent_mm : float
+        Diagonal of the target's bounding box, mm (cap of the reach).
+    target_area_mm2 : float
+        Total area, mm^2.
+    min_width_mm : float
+        The job's ``pieces.min_width_mm`` (feasibility threshold of :meth:`summary_json`), mm.
+    """
+
+    curvature: Curvature
+    kind: np.ndarray
+    wire_reach_mm: np.ndarray
+    reach_direction: np.ndarray
+    undercut: np.ndarray
+    vertex_area: np.ndarray
+    marched: np.ndarray
+    tolerance_mm: float
+    policy: Policy
+    allowed_sagitta_mm: float
+    length_mm: float
+    developable_limit_per_mm: float
+    extent_mm: float
+    target_area_mm2: float
+    min_width_mm: float
+
+    def _fraction(self, mask: np.ndarray) -> float:
+        total = float(self.vertex_area.sum())
+        return float(self.vertex_area[mask].sum() / total) if total > 0 else 0.0
+
+    def feasible_area_fraction(self, min_width_mm: float) -> float:
+        """Share of the area (0..1) where the reach is at least ``min_width_mm`` and not undercut."""
+        return self._fraction((self.wire_reach_mm >= min_width_mm) & ~self.undercut)
+
+    def summary_json(self, min_width_mm: float | None = None) -> dict:
+        """``{"feasible_area_fraction": ...}`` for ``check`` (default width: the job's)."""
+        w = self.min_width_mm if min_width_mm is None else float(min_width_mm)
+        return {"feasible_area_fraction": self.feasible_area_fraction(w)}
+
+    def to_json(self) -> dict:
+        """The ``analysis`` dict of plan.json (docs: /work/shared/interface.md).
+
+        Percentiles are weighted by vertex area; the curvature ones use interior vertices only.
+        """
+        cu = self.curvature
+        inside = cu.interior
+        k = cu.gaussian[inside]
+        wk = self.vertex_area[inside]
+        if k.size:
+            gstats = {
+                "min": float(k.min()),
+                "p05": _weighted_percentile(k, wk, 5.0),
+                "median": _weighted_percentile(k, wk, 50.0),
+                "p95": _weighted_percentile(k, wk, 95.0),
+                "max": float(k.max()),
+            }
+        else:
+            gstats = {key: None for key in ("min", "p05", "median", "p95", "max")}
+        r, wr = self.wire_reach_mm, self.vertex_area
+        return {
+            "target_area_mm2": float(self.target_area_mm2),
+            "gaussian_curvature_per_mm2": gstats,
+            "developable_area_fraction": self._fraction(self.kind == DEVELOPABLE),
+            "ruled_area_fraction": self._fraction(self.kind == RULED),
+            "synclastic_area_fraction": self._fraction(self.kind == SYNCLASTIC),
+            "wire_reach_mm": {
+                "p05": _weighted_percentile(r, wr, 5.0),
+                "median": _weighted_percentile(r, wr, 50.0),
+                "p95": _weighted_percentile(r, wr, 95.0),
+            },
+            "undercut_area_fraction": self._fraction(self.undercut),
+        }
+
+
+def _weighted_percentile(values: np.ndarray, weights: np.ndarray, q: float) -> float:
+    """Percentile ``q`` (0..100) of ``values`` with ``weights`` (lower step of the weighted CDF)."""
+    order = np.argsort(values, kind="stable")
+    v, w = values[order], np.maximum(weights[order], 0.0)
+    cdf = np.cumsum(w)
+    if cdf[-1] <= 0:
+        return float(np.percentile(values, q))
+    i = int(np.searchsorted(cdf, q / 100.0 * cdf[-1], side="left"))
+    return float(v[min(i, len(v) - 1)])
+
+
+def allowed_sagitta(tolerance_mm: float, policy: Policy) -> float:
+    """Range of deviation (mm) a straight line may span: 2 tol (balanced) or tol (no-gouge)."""
+    return (2.0 if Policy(policy) is Policy.BALANCED else 1.0) * float(tolerance_mm)
+
+
+def sagitta_reach(curvature_per_mm: np.ndarray, tolerance_mm: float, policy: Policy) -> np.ndarray:
+    """Longest chord (mm) of a circle of curvature ``|k|`` whose sagitta is the allowed error.
+
+    ``w = 2 sqrt(R^2 - (R - s)^2) = 2 sqrt(2 R s - s^2)`` with ``R = 1/|k|`` and ``s`` from
+    :func:`allowed_sagitta`; ``2R`` when ``s >= R``; infinite where ``k = 0``.
+    """
+    s = allowed_sagitta(tolerance_mm, policy)
+    k = np.abs(np.asarray(curvature_per_mm, float))
+    with np.errstate(divide="ignore", invalid="ignore"):
+        r = np.where(k > 0, 1.0 / k, np.inf)
+        w = np.where(s < r, 2.0 * np.sqrt(np.maximum(2.0 * r * s - s * s, 0.0)), 2.0 * r)
+    return w
+
+
+def analyse_surface(target: TargetSurface, job: JobProfile) -> SurfaceAnalysis:
+    """Classify the target, measure the wire reach and flag undercut vertices.
+
+    Parameters
+    ----------
+    target : TargetSurface
+    job : JobProfile
+        Supplies the tolerance, the policy, the span and the piece rules.
+
+    Returns
+    -------
+    SurfaceAnalysis
+        See the module docstring for every rule.
+    """
+    cu = vertex_curvature(target)
+    tol, policy = job.tolerance.surface_mm, job.tolerance.policy
+    s = allowed_sagitta(tol, policy)
+    extent = target.extent_mm
+    length = min(job.usable_width_mm, extent)
+    limit = 8.0 * s / length**2
+
+    k_big = np.maximum(np.abs(cu.k1), np.abs(cu.k2))
+    k_prod = np.where(cu.interior, cu.gaussian, cu.k1 * cu.k2)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        k_min = np.where(k_big > 0, np.abs(k_prod) / k_big, 0.0)
+    kind = np.where(k_prod < 0, RULED, SYNCLASTIC).astype(np.int8)
+    kind[(k_min <= limit) | (k_big <= limit)] = DEVELOPABLE
+
+    # the direction of least |normal curvature| (for a saddle: refined to an asymptotic line)
+    least = np.where((np.abs(cu.k1) <= np.abs(cu.k2))[:, None], cu.dir1, cu.dir2)
+    reach = np.minimum(sagitta_reach(np.minimum(np.abs(cu.k1), np.abs(cu.k2)), tol, policy), extent)
+    direction = least.copy()
+    marched = np.zeros(len(kind), bool)
+    cand = np.flatnonzero(kind != SYNCLASTIC)
+    if cand.size:
+        pick = _deterministic_subsample(target, cand, MAX_MARCHED)
+        options = _direction_options(cu, least)
+        best_len = np.zeros(len(pick))
+        best_dir = np.zeros((len(pick), 3))
+        step = max(target.mean_edge_mm, extent / _STEPS)
+        probe = _SurfaceProbe(target, cu)
+        for o in range(options.shape[1]):
+            dirs = options[pick, o]
+            ok = np.isfinite(dirs).all(axis=1)
+            if o == 2:
+                ok &= ~np.isfinite(options[pick, 0]).all(axis=1)
+            lens = np.zeros(len(pick))
+            if ok.any():
+                lens[ok] = _march(probe, pick[ok], dirs[ok], step, extent, s)
+            better = lens > best_len
+            best_len[better] = lens[better]
+            best_dir[better] = dirs[better]
+        unset = best_len <= 0
+        best_dir[unset] = least[pick[unset]]
+        best_len = np.minimum(best_len, extent)
+        # fill the other candidates from the nearest marched vertex
+        tree = cKDTree(target.vertices[pick])
+        _, near = tree.query(target.vertices[cand])
+        reach[cand] = best_len[near]
+        ref = best_dir[near]
+        opts = options[cand]
+        dots = np.abs(np.einsum("kod,kd->ko", np.nan_to_num(opts), ref))
+        choice = np.argmax(dots, axis=1)
+        direction[cand] = opts[np.arange(len(cand)), choice]
+        direction[pick] = best_dir
+        marched[pick] = True
+
+    w = target.waste_normal
+    undercut = (target.vertex_normals @ w <= 0.0) | occluded_vertices(target)
+    return SurfaceAnalysis(
+        curvature=cu,
+        kind=kind,
+        wire_reach_mm=reach,
+        reach_direction=direction,
+        undercut=undercut,
+        vertex_area=cu.vertex_area,
+        marched=marched,
+        tolerance_mm=float(tol),
+        policy=policy,
+        allowed_sagitta_mm=float(s),
+        length_mm=float(length),
+        developable_limit_per_mm=float(limit),
+        extent_mm=float(extent),
+        target_area_mm2=target.area_mm2,
+        min_width_mm=float(job.pieces.min_width_mm),
+    )
+
+
+def _direction_options(cu: Curvature, least: np.ndarray) -> np.ndarray:
+    """(n, 3, 3): the two asymptotic directions (NaN where none) and the least-curved direction."""
+    return np.concatenate([cu.asymptotic, least[:, None, :]], axis=1)
+
+
+def _deterministic_subsample(target: TargetSurface, cand: np.ndarray, limit: int) -> np.ndarray:
+    """At most ``limit`` of ``cand``: the lowest index per cell of a plan grid of ~limit cells."""
+    if len(cand) <= limit:
+        return cand
+    plan = to_plan(target.vertices[cand], target.up)
+    lo, span = plan.min(axis=0), np.maximum(np.ptp(plan, axis=0), 1e-9)
+    for cells in (limit, limit // 2, limit // 4, limit // 8):
+        size = np.sqrt(span[0] * span[1] / cells)
+        ij = np.floor((plan - lo) / size).astype(np.int64)
+        key = ij[:, 0] * (int(ij[:, 1].max()) + 1) + ij[:, 1]
+        _, first = np.unique(key, return_index=True)
+        if len(first) <= limit:
+            return np.sort(cand[first])
+    return cand[np.linspace(0, len(cand) - 1, limit).astype(np.int64)]
+
+
+class _SurfaceProbe:
+    """Signed distance (mm) of points from the surface along the nearest vertex's normal."""
+
+    def __init__(self, target: TargetSurface, cu: Curvature) -> None:
+        self.v = target.vertices
+        self.cu = cu
+        self.tree = cKDTree(self.v)
+        self.edge = target.mean_edge_mm
+        self.off = 2.0 * self.edge
+        self.reach = 3.0 * self.edge + 1e-9
+        self.outward = _outward_boundary_directions(target)
+
+    def __call__(self, q: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """Distances (k,) mm (+ toward the waste side) and an on-surface flag (k,) for points (k, 3)."""
+        dist, j = self.tree.query(q, distance_upper_bound=self.reach)
+        hit = np.isfinite(dist)
+        j = np.where(hit, j, 0)
+        d = q - self.v[j]
+        n = self.cu.normals[j]
+        h = np.einsum("ij,ij->i", d, n)
+        t = d - h[:, None] * n
+        a = np.einsum("ij,ij->i", t, self.cu.dir1[j])
+        b = np.einsum("ij,ij->i", t, self.cu.dir2[j])
+        surf = 0.5 * (self.cu.k1[j] * a * a + self.cu.k2[j] * b * b)
+        lateral = np.linalg.norm(t, axis=1)
+        on = hit & (lateral <= self.off)
+        # beyond the boundary: nearest vertex on the boundary and the offset points outward
+        edge = self.outward[j]
+        on &= np.einsum("ij,ij->i", t, edge) <= 0.05 * self.edge
+        return h - surf, on
+
+
+def _outward_boundary_directions(target: TargetSurface) -> np.ndarray:
+    """(n, 3) unit tangent pointing out of the surface at boundary vertices; zero elsewhere."""
+    v, f = target.vertices, target.faces
+    edges, counts, inverse = edge_use(f, len(v))
+    directed = np.stack([f, np.roll(f, -1, axis=1)], axis=2).reshape(-1, 2)
+    third = np.roll(f, -2, axis=1).reshape(-1)
+    lone = counts[inverse] == 1
+    a, b, c = directed[lone, 0], directed[lone, 1], third[lone]
+    e = v[b] - v[a]
+    e /= np.linalg.norm(e, axis=1, keepdims=True)
+    out = 0.5 * (v[a] + v[b]) - v[c]
+    out -= np.einsum("ij,ij->i", out, e)[:, None] * e
+    out /= np.maximum(np.linalg.norm(out, axis=1, keepdims=True), 1e-300)
+    acc = np.zeros_like(v)
+    for idx in (a, b):
+        for d in range(3):
+            acc[:, d] += np.bincount(idx, weights=out[:, d], minlength=len(v))
+    norm = np.linalg.norm(acc, axis=1, keepdims=True)
+    return np.divide(acc, norm, out=np.zeros_like(acc), where=norm > 0)
+
+
+def _march(
+    probe: _SurfaceProbe,
+    idx: np.ndarray,
+    dirs: np.ndarray,
+    step: float,
+    max_len: float,
+    allowed: float,
+) -> np.ndarray:
+    """Longest window (mm) through each vertex ``idx`` along ``dirs`` with deviation range <= allowed."""
+    k = int(min(_STEPS, np.ceil(max_len / step)))
+    s = step * np.arange(k + 1)
+    out = np.zeros(len(idx))
+    for b0 in range(0, len(idx), _BATCH):
+        sl = slice(b0, min(len(idx), b0 + _BATCH))
+        p0 = probe.v[idx[sl]]
+        dd = dirs[sl]
+        sides = []
+        for sign in (1.0, -1.0):
+            q = p0[:, None, :] + sign * s[None, :, None] * dd[:, None, :]
+            dev, on = probe(q.reshape(-1, 3))
+            dev, on = dev.reshape(len(p0), k + 1), on.reshape(len(p0), k + 1)
+            on[:, 0] = True
+            dev = dev - dev[:, :1]
+            # samples after the first one off the surface do not count
+            alive = np.cumprod(on, axis=1).astype(bool)
+            hi = np.maximum.accumulate(np.where(alive, dev, -np.inf), axis=1)
+            lo = np.minimum.accumulate(np.where(alive, dev, np.inf), axis=1)
+            sides.append((hi, lo, alive))
+        (hp, lp, ap), (hn, ln, an) = sides
+        rng = np.maximum(hp[:, None, :], hn[:, :, None]) - np.minimum(
+            lp[:, None, :], ln[:, :, None]
+        )
+        ok = (rng <= allowed) & ap[:, None, :] & an[:, :, None]
+        total = np.arange(k + 1)[:, None] + np.arange(k + 1)[None, :]
+        best = np.where(ok, total[None], 0).reshape(len(p0), -1).max(axis=1)
+        out[sl] = best * step
+    return out
+
+
+def occluded_vertices(target: TargetSurface) -> np.ndarray:
+    """(n,) bool: the ray from the vertex toward the waste side meets the target again.
+
+    The ray is parallel to the waste direction ``w``, so it is the plan-view point-in-triangle
+    test with heights ``p . w``; triangles are bucketed on a plan grid.
+    """
+    w = target.waste_normal
+    v, f = target.vertices, target.faces
+    plan = to_plan(v, w)
+    height = v @ w
+    eps = 1e-6 * max(target.extent_mm, 1e-9)
+    tri = plan[f]
+    a, b, c = tri[:, 0], tri[:, 1], tri[:, 2]
+    det = (b[:, 0] - a[:, 0]) * (c[:, 1] - a[:, 1]) - (c[:, 0] - a[:, 0]) * (b[:, 1] - a[:, 1])
+    scale = np.ptp(plan, axis=0).max() if len(plan) else 1.0
+    good = np.abs(det) > 1e-12 * scale**2
+    tid = np.flatnonzero(good)
+    if tid.size == 0:
+        return np.zeros(len(v), bool)
+    lo_t, hi_t = tri[tid].min(axis=1), tri[tid].max(axis=1)
+    lo = plan.min(axis=0)
+    cell = max(float(np.median((hi_t - lo_t).max(axis=1))), 1e-9 * scale, 1e-12)
+    for _ in range(20):
+        i0 = np.floor((lo_t - lo) / cell).astype(np.int64)
+        i1 = np.floor((hi_t - lo) / cell).astype(np.int64)
+        span = (i1 - i0 + 1).prod(axis=1)
+        if span.sum() <= 8 * len(tid) + 1_000_000:
+            break
+        cell *= 1.5
+    ny = int(np.floor(np.ptp(plan[:, 1]) / cell)) + 2
+    # expand every triangle into the cells its plan bounding box covers
+    rep = np.repeat(np.arange(len(tid)), span)
+    offs = np.arange(len(rep)) - np.repeat(np.cumsum(span) - span, span)
+    w_cells = (i1[:, 1] - i0[:, 1] + 1)[rep]
+    ci = i0[rep, 0] + offs // w_cells
+    cj = i0[rep, 1] + offs % w_cells
+    key = ci * ny + cj
+    order = np.argsort(key, kind="stable")
+    key, tri_of = key[order], tid[rep[order]]
+    # each vertex against the triangles of its cell
+    pij = np.floor((plan - lo) / cell).astype(np.int64)
+    pkey = pij[:, 0] * ny + pij[:, 1]
+    start = np.searchsorted(key, pkey, side="left")
+    stop = np.searchsorted(key, pkey, side="right")
+    cnt = stop - start
+    out = np.zeros(len(v), bool)
+    for c0 in range(0, len(v), 200_000):
+        sl = slice(c0, min(len(v), c0 + 200_000))
+        qv = np.arange(sl.start, sl.stop)
+        qn = cnt[sl]
+        qi = np.repeat(qv, qn)
+        pos = np.repeat(start[sl], qn) + (np.arange(len(qi)) - np.repeat(np.cumsum(qn) - qn, qn))
+        t = tri_of[pos]
+        keep = (f[t] != qi[:, None]).all(axis=1)
+        qi, t = qi[keep], t[keep]
+        p = plan[qi]
+        ta, tb, tc = plan[f[t, 0]], plan[f[t, 1]], plan[f[t, 2]]
+        d = det[t]
+        l1 = (
+            (tb[:, 0] - p[:, 0]) * (tc[:, 1] - p[:, 1])
+            - (tc[:, 0] - p[:, 0]) * (tb[:, 1] - p[:, 1])
+        ) / d
+        l2 = (
+            (tc[:, 0] - p[:, 0]) * (ta[:, 1] - p[:, 1])
+            - (ta[:, 0] - p[:, 0]) * (tc[:, 1] - p[:, 1])
+        ) / d
+        l3 = 1.0 - l1 - l2
+        inside = (l1 >= -1e-9) & (l2 >= -1e-9) & (l3 >= -1e-9)
+        h = l1 * height[f[t, 0]] + l2 * height[f[t, 1]] + l3 * height[f[t, 2]]
+        hit = inside & (h > height[qi] + eps)
+        out[np.unique(qi[hit])] = True
+    return out

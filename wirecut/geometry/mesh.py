@@ -1,0 +1,451 @@
+"""Mesh intake: read a designer's mesh, clean it, and keep the surface the wire must cut.
+
+The result is a :class:`TargetSurface`: a triangle mesh in the part frame (mm) whose face normals
+point toward the **waste side** (``mold.up`` for a mold kept below the surface, ``-mold.up`` for a
+counter-mold kept above it).
+
+Intake steps, in order:
+
+1. read the file through trimesh (STL ASCII and binary, OBJ, PLY, OFF, GLB; a GLB scene is
+   concatenated into one mesh); refuse anything that is not a triangle mesh with
+   :class:`~wirecut.errors.MeshError`, naming the file and the problem in one line;
+2. convert units (``Units.to_mm``) and warn when the size looks like the wrong unit;
+3. merge duplicate vertices (coordinates equal after rounding to 1e-9 of the bounding-box
+   diagonal), drop degenerate faces (a repeated vertex index, zero area, collinear corners:
+   area below 1e-12 of the longest edge squared) and exact duplicate faces;
+4. make the winding consistent per connected component (parity over the face-adjacency graph);
+5. a **closed solid** (every edge shared by exactly two faces) keeps only the faces that look
+   toward the waste side: ``n . w > 0.1`` (about 84 degrees or less from the waste direction
+   ``w``), after turning the normals outward (positive signed volume); an **open surface** is kept
+   whole, each component flipped so that its area-weighted mean normal looks toward ``w``. Faces
+   that still look away from ``w`` stay: they are undercut and the analysis flags them.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from functools import cached_property
+from pathlib import Path
+
+import numpy as np
+from scipy import sparse
+from scipy.sparse import csgraph
+
+from wirecut.config import JobProfile, MoldSide, Units
+from wirecut.errors import MeshError
+from wirecut.findings import Finding, Severity
+
+__all__ = [
+    "TargetSurface",
+    "load_target",
+    "target_from_arrays",
+    "waste_direction",
+    "edge_use",
+    "boundary_vertex_mask",
+    "SUPPORTED_SUFFIXES",
+    "CLOSED_FACING_THRESHOLD",
+]
+
+#: File suffixes read by :func:`load_target`, mapped to trimesh's file type.
+SUPPORTED_SUFFIXES = {".stl": "stl", ".obj": "obj", ".ply": "ply", ".off": "off", ".glb": "glb"}
+
+#: A face of a closed solid belongs to the target when ``n . w`` exceeds this (cos 84.3 deg).
+CLOSED_FACING_THRESHOLD = 0.1
+
+_PLAUSIBLE_DIAGONAL_MM = (50.0, 200_000.0)
+
+
+@dataclass(frozen=True, eq=False)
+class TargetSurface:
+    """The surface to cut, part frame, mm.
+
+    Attributes
+    ----------
+    vertices : (n, 3) float, mm, part frame
+        Vertex positions after unit conversion and merging.
+    faces : (m, 3) int64
+        Vertex indices of each triangle, wound so that the right-hand normal is ``face_normals``.
+    face_normals : (m, 3) float, unit, part frame
+        Face normals, oriented toward the waste side (faces of an open surface that look away
+        from it are undercut and keep their true orientation).
+    up : (3,) float, unit, part frame
+        The job's ``mold.up``.
+    side : MoldSide
+        Which side of the surface the foam is kept on.
+    merged_vertices : int
+        Vertices removed by merging duplicates on intake.
+    dropped_faces : int
+        Degenerate or duplicate faces removed on intake (plus, for a closed solid, none of the
+        faces left out because they look away from the waste side: see ``was_closed``).
+    was_closed : bool
+        True when the input was a closed solid and only its waste-facing faces were kept.
+    source_units : Units
+        Unit the input was read in (converted to mm).
+    source : str
+        File name, or ``"arrays"`` for :func:`target_from_arrays`.
+    """
+
+    vertices: np.ndarray
+    faces: np.ndarray
+    face_normals: np.ndarray
+    up: np.ndarray
+    side: MoldSide = MoldSide.BELOW
+    merged_vertices: int = 0
+    dropped_faces: int = 0
+    was_closed: bool = False
+    source_units: Units = Units.MM
+    source: str = "arrays"
+
+    @property
+    def waste_normal(self) -> np.ndarray:
+        """(3,) unit vector toward the waste side, part frame: ``up`` or ``-up``."""
+        return waste_direction(self.up, self.side)
+
+    @cached_property
+    def face_areas(self) -> np.ndarray:
+        """(m,) float, mm^2: area of each face."""
+        tri = self.vertices[self.faces]
+        return 0.5 * np.linalg.norm(np.cross(tri[:, 1] - tri[:, 0], tri[:, 2] - tri[:, 0]), axis=1)
+
+    @property
+    def area_mm2(self) -> float:
+        """Total area, mm^2."""
+        return float(self.face_areas.sum())
+
+    @cached_property
+    def extent_mm(self) -> float:
+        """Diagonal of the axis-aligned bounding box, mm (the surface's extent)."""
+        return float(np.linalg.norm(np.ptp(self.vertices, axis=0)))
+
+    @cached_property
+    def vertex_normals(self) -> np.ndarray:
+        """(n, 3) float, unit, part frame: area-weighted vertex normals (same orientation)."""
+        w = self.face_normals * self.face_areas[:, None]
+        acc = np.zeros_like(self.vertices)
+        for k in range(3):
+            acc += _scatter_rows(self.faces[:, k], w, len(self.vertices))
+        norm = np.linalg.norm(acc, axis=1, keepdims=True)
+        return np.divide(acc, norm, out=np.zeros_like(acc), where=norm > 0)
+
+    @cached_property
+    def mean_edge_mm(self) -> float:
+        """Mean edge length, mm."""
+        tri = self.vertices[self.faces]
+        e = np.linalg.norm(tri - np.roll(tri, 1, axis=1), axis=2)
+        return float(e.mean())
+
+    @cached_property
+    def trimesh(self):
+        """A ``trimesh.Trimesh`` view of the surface (built once, not processed)."""
+        import trimesh
+
+        return trimesh.Trimesh(
+            self.vertices, self.faces, face_normals=self.face_normals, process=False
+        )
+
+
+def waste_direction(up: np.ndarray, side: MoldSide) -> np.ndarray:
+    """(3,) unit vector toward the waste side: ``up`` for ``side = below``, ``-up`` for above."""
+    u = np.asarray(up, float)
+    u = u / np.linalg.norm(u)
+    return u if MoldSide(side) is MoldSide.BELOW else -u
+
+
+def _scatter_rows(index: np.ndarray, values: np.ndarray, n: int) -> np.ndarray:
+    """Sum rows of ``values`` (k, d) into ``n`` bins given by ``index`` (k,)."""
+    return np.column_stack(
+        [np.bincount(index, weights=values[:, j], minlength=n) for j in range(values.shape[1])]
+    )
+
+
+def edge_use(faces: np.ndarray, n_vertices: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Undirected edges and how the faces use them.
+
+    Returns
+    -------
+    edges : (e, 2) int
+        Unique undirected edges, smaller index first.
+    counts : (e,) int
+        Number of faces using each edge.
+    inverse : (3m,) int
+        Edge index of each directed face edge ``(f0, f1), (f1, f2), (f2, f0)`` in face order.
+    """
+    directed = np.stack([faces, np.roll(faces, -1, axis=1)], axis=2).reshape(-1, 2)
+    lo = directed.min(axis=1).astype(np.int64)
+    hi = directed.max(axis=1).astype(np.int64)
+    key = lo * int(n_vertices) + hi
+    uniq, inverse, counts = np.unique(key, return_inverse=True, return_counts=True)
+    edges = np.column_stack([uniq // n_vertices, uniq % n_vertices])
+    return edges, counts, inverse
+
+
+def boundary_vertex_mask(faces: np.ndarray, n_vertices: int) -> np.ndarray:
+    """(n,) bool: vertices on an edge used by exactly one face (or by more than two)."""
+    edges, counts, _ = edge_use(faces, n_vertices)
+    mask = np.zeros(n_vertices, bool)
+    mask[edges[counts != 2].ravel()] = True
+    return mask
+
+
+def _orient_consistently(faces: np.ndarray, n_vertices: int) -> tuple[np.ndarray, np.ndarray]:
+    """Flip faces so neighbours across every manifold edge traverse it in opposite directions.
+
+    Parity propagation on a doubled graph: node ``f`` is face f as given, node ``f + m`` is it
+    flipped. Two faces sharing an edge in the same direction link (f, g + m) and (f + m, g);
+    in opposite directions (f, g) and (f + m, g + m). Each face takes the state that lies in the
+    same doubled component as the first face of its component as given.
+
+    Returns the re-wound faces (m, 3) and the component label of each face (m,).
+    """
+    m = len(faces)
+    directed = np.stack([faces, np.roll(faces, -1, axis=1)], axis=2).reshape(-1, 2)
+    forward = directed[:, 0] < directed[:, 1]
+    _, counts, inverse = edge_use(faces, n_vertices)
+    face_of = np.repeat(np.arange(m), 3)
+    manifold = counts[inverse] == 2
+    order = np.argsort(inverse[manifold], kind="stable")
+    idx = np.flatnonzero(manifold)[order]
+    a, b = idx[0::2], idx[1::2]
+    fa, fb = face_of[a], face_of[b]
+    same_dir = forward[a] == forward[b]
+    src = np.concatenate([fa, fa + m])
+    dst = np.concatenate([np.where(same_dir, fb + m, fb), np.where(same_dir, fb, fb + m)])
+    doubled = sparse.coo_matrix((np.ones(len(src)), (src, dst)), shape=(2 * m, 2 * m))
+    _, label2 = csgraph.connected_components(doubled, directed=False)
+    plain = sparse.coo_matrix((np.ones(len(fa)), (fa, fb)), shape=(m, m))
+    n_comp, comp = csgraph.connected_components(plain, directed=False)
+    first = np.full(n_comp, m, np.int64)
+    np.minimum.at(first, comp, np.arange(m))
+    flip = label2[np.arange(m)] != label2[first[comp]]
+    # a non-orientable component puts both states together: leave it as given
+    flip &= label2[np.arange(m)] != label2[np.arange(m) + m]
+    out = faces.copy()
+    out[flip] = out[flip][:, ::-1]
+    return out, comp
+
+
+def _read_arrays(path: Path) -> tuple[np.ndarray, np.ndarray]:
+    """Read vertices and faces with trimesh; refuse anything that is not a triangle mesh."""
+    name = path.name
+    if not path.exists():
+        raise MeshError(f"mesh file {name} does not exist")
+    if path.is_dir():
+        raise MeshError(f"mesh file {name} is a folder, not a mesh file")
+    suffix = path.suffix.lower()
+    if suffix not in SUPPORTED_SUFFIXES:
+        valid = ", ".join(SUPPORTED_SUFFIXES)
+        raise MeshError(f"mesh file {name} has suffix {suffix or '(none)'!r}; readable: {valid}")
+    try:
+        size = path.stat().st_size
+    except OSError as exc:
+        raise MeshError(f"mesh file {name} cannot be read: {exc.__class__.__name__}") from None
+    if size == 0:
+        raise MeshError(f"mesh file {name} is empty")
+    import trimesh
+
+    try:
+        loaded = trimesh.load(str(path), file_type=SUPPORTED_SUFFIXES[suffix], process=False)
+    except Exception as exc:  # trimesh raises many kinds on garbage; none may escape
+        raise MeshError(
+            f"mesh file {name} is unreadable, truncated or not a {suffix[1:].upper()} mesh "
+            f"({exc.__class__.__name__})"
+        ) from None
+    try:
+        if isinstance(loaded, trimesh.Scene):
+            kinds = {type(g).__name__ for g in loaded.geometry.values()}
+            meshes = [g for g in loaded.geometry.values() if isinstance(g, trimesh.Trimesh)]
+            if not meshes:
+                if kinds & {"PointCloud"}:
+                    raise MeshError(f"mesh file {name} holds a point cloud, not a mesh")
+                if kinds & {"Path2D", "Path3D"}:
+                    raise MeshError(f"mesh file {name} holds a path, not a mesh")
+                raise MeshError(f"mesh file {name} holds no mesh data (text or truncated?)")
+            loaded = loaded.to_mesh()
+        if isinstance(loaded, trimesh.PointCloud):
+            raise MeshError(f"mesh file {name} holds a point cloud, not a mesh")
+        if not isinstance(loaded, trimesh.Trimesh):
+            raise MeshError(f"mesh file {name} holds a {type(loaded).__name__}, not a mesh")
+        vertices = np.asarray(loaded.vertices, dtype=float)
+        faces = np.asarray(loaded.faces, dtype=np.int64).reshape(-1, 3)
+    except MeshError:
+        raise
+    except Exception as exc:
+        raise MeshError(f"mesh file {name} cannot be turned into a mesh ({exc.__class__.__name__})")
+    return vertices, faces
+
+
+def load_target(
+    path: str | Path, job: JobProfile, units: Units | None = None
+) -> tuple[TargetSurface, list[Finding]]:
+    """Read a mesh file and return the target surface and intake findings.
+
+    Parameters
+    ----------
+    path : str or Path
+        STL (ASCII or binary), OBJ, PLY, OFF or GLB file.
+    job : JobProfile
+        Supplies ``mold.up`` and ``mold.side``.
+    units : Units or None
+        Unit of the file's coordinates; None means mm.
+
+    Returns
+    -------
+    target : TargetSurface
+    findings : list of Finding
+        ``mesh-cleaned`` (info) with the merge and drop counts, ``suspicious-units`` (attention).
+
+    Raises
+    ------
+    MeshError
+        Missing file, folder, empty, unreadable, not a mesh, NaN or infinite coordinates, no faces,
+        zero area; the message names the file.
+    """
+    p = Path(path)
+    vertices, faces = _read_arrays(p)
+    return _build(vertices, faces, job, units, p.name)
+
+
+def target_from_arrays(
+    vertices: np.ndarray, faces: np.ndarray, job: JobProfile, units: Units | None = None
+) -> tuple[TargetSurface, list[Finding]]:
+    """Build the target from arrays, with the same cleaning and checks as :func:`load_target`.
+
+    Parameters
+    ----------
+    vertices : (n, 3) float, in ``units`` (mm when None), part frame
+    faces : (m, 3) int
+    """
+    try:
+        v = np.asarray(vertices, dtype=float).reshape(-1, 3)
+        f = np.asarray(faces).reshape(-1, 3)
+    except (ValueError, TypeError) as exc:
+        raise MeshError(f"mesh arrays have the wrong shape ({exc.__class__.__name__})") from None
+    if f.size and not np.issubdtype(f.dtype, np.integer):
+        raise MeshError(f"mesh arrays: faces must be integers, got {f.dtype}")
+    return _build(v, f.astype(np.int64), job, units, "arrays")
+
+
+def _build(
+    vertices: np.ndarray, faces: np.ndarray, job: JobProfile, units: Units | None, name: str
+) -> tuple[TargetSurface, list[Finding]]:
+    findings: list[Finding] = []
+    label = f"mesh file {name}" if name != "arrays" else "mesh arrays"
+    if len(vertices) == 0:
+        raise MeshError(f"{label} has no vertices")
+    if not np.isfinite(vertices).all():
+        bad = int((~np.isfinite(vertices).all(axis=1)).sum())
+        raise MeshError(f"{label} has {bad} vertices with NaN or infinite coordinates")
+    if len(faces) == 0:
+        raise MeshError(f"{label} has no faces (a point cloud or path, not a mesh)")
+    if faces.min() < 0 or faces.max() >= len(vertices):
+        raise MeshError(f"{label} has face indices outside 0..{len(vertices) - 1}")
+    unit = Units.MM if units is None else Units(units)
+    raw_diag = float(np.linalg.norm(np.ptp(vertices, axis=0)))
+    vertices = vertices * unit.to_mm
+    diag = raw_diag * unit.to_mm
+    if diag == 0.0:
+        raise MeshError(f"{label} has zero total area (all vertices coincide)")
+    findings += _units_check(raw_diag, unit, label)
+
+    # merge duplicate vertices
+    n_in, m_in = len(vertices), len(faces)
+    q = np.round(vertices / (diag * 1e-9)).astype(np.int64)
+    _, first, inv = np.unique(q, axis=0, return_index=True, return_inverse=True)
+    inv = inv.ravel()
+    vertices = vertices[first]
+    faces = inv[faces]
+    # drop degenerate and duplicate faces
+    tri = vertices[faces]
+    cross = np.cross(tri[:, 1] - tri[:, 0], tri[:, 2] - tri[:, 0])
+    area2 = np.linalg.norm(cross, axis=1)
+    longest2 = (np.linalg.norm(tri - np.roll(tri, 1, axis=1), axis=2) ** 2).max(axis=1)
+    repeated = (
+        (faces[:, 0] == faces[:, 1]) | (faces[:, 1] == faces[:, 2]) | (faces[:, 0] == faces[:, 2])
+    )
+    keep = ~repeated & (area2 > 1e-12 * longest2) & (area2 > 0.0)
+    _, uniq_rows = np.unique(np.sort(faces, axis=1), axis=0, return_index=True)
+    dup = np.ones(len(faces), bool)
+    dup[uniq_rows] = False
+    keep &= ~dup
+    faces = faces[keep]
+    if len(faces) == 0:
+        raise MeshError(f"{label} has zero total area (every face is degenerate)")
+    used = np.unique(faces)
+    remap = np.full(len(vertices), -1, np.int64)
+    remap[used] = np.arange(len(used))
+    vertices, faces = vertices[used], remap[faces]
+    merged, dropped = n_in - len(first), m_in - len(faces)
+    if merged or dropped:
+        findings.append(
+            Finding(
+                "mesh-cleaned",
+                f"{label}: merged {merged} duplicate vertices, dropped {dropped} degenerate or "
+                f"duplicate faces, {len(faces)} faces remain",
+                severity=Severity.INFO,
+            )
+        )
+
+    faces, comp = _orient_consistently(faces, len(vertices))
+    w = waste_direction(job.mold.up, job.mold.side)
+    _, counts, _ = edge_use(faces, len(vertices))
+    closed = bool((counts == 2).all())
+    tri = vertices[faces]
+    cross = np.cross(tri[:, 1] - tri[:, 0], tri[:, 2] - tri[:, 0])
+    if closed:
+        signed_volume = np.einsum("ij,ij->i", tri[:, 0], cross).sum() / 6.0
+        if signed_volume < 0:
+            faces, cross = faces[:, ::-1].copy(), -cross
+        normals = cross / np.linalg.norm(cross, axis=1, keepdims=True)
+        facing = normals @ w > CLOSED_FACING_THRESHOLD
+        if not facing.any():
+            raise MeshError(f"{label} is a closed solid with no face looking toward the waste side")
+        faces, normals = faces[facing], normals[facing]
+        used = np.unique(faces)
+        remap = np.full(len(vertices), -1, np.int64)
+        remap[used] = np.arange(len(used))
+        vertices, faces = vertices[used], remap[faces]
+    else:
+        # per component: flip when the area-weighted mean normal looks away from the waste side
+        score = np.bincount(comp, weights=cross @ w)
+        flip = score[comp] < 0
+        faces[flip] = faces[flip][:, ::-1]
+        cross[flip] = -cross[flip]
+        normals = cross / np.linalg.norm(cross, axis=1, keepdims=True)
+    target = TargetSurface(
+        vertices=vertices,
+        faces=faces,
+        face_normals=normals,
+        up=np.asarray(job.mold.up, float) / np.linalg.norm(job.mold.up),
+        side=job.mold.side,
+        merged_vertices=int(merged),
+        dropped_faces=int(dropped),
+        was_closed=closed,
+        source_units=unit,
+        source=name,
+    )
+    if target.area_mm2 <= 0.0:
+        raise MeshError(f"{label} has zero total area")
+    return target, findings
+
+
+def _units_check(raw_diag: float, unit: Units, label: str) -> list[Finding]:
+    """An attention finding when the size in mm is implausible, naming a ``--units`` that fixes it."""
+    lo, hi = _PLAUSIBLE_DIAGONAL_MM
+    diag = raw_diag * unit.to_mm
+    if lo <= diag <= hi:
+        return []
+    fits = [u for u in Units if u is not unit and lo <= raw_diag * u.to_mm <= hi]
+    # prefer the unit giving a size closest (in ratio) to a typical 1.5 m mold
+    fits.sort(key=lambda u: abs(np.log(raw_diag * u.to_mm / 1500.0)))
+    size = "small" if diag < lo else "large"
+    hint = (
+        f"if the file is in {fits[0].value}, pass --units {fits[0].value}"
+        if fits
+        else "no --units choice brings it into range; check the file's scale"
+    )
+    return [
+        Finding(
+            "suspicious-units",
+            f"{label} is {diag:.3g} mm across, suspiciously {size}: {hint}",
+        )
+    ]
