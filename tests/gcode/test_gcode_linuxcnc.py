@@ -13,7 +13,8 @@ from pathlib import Path
 
 import numpy as np
 import pytest
-from gcode_programs import job_for, random_program, rectangle_program, tapered_program
+from gcode_programs import job_for, programs, random_program, rectangle_program, tapered_program
+from hypothesis import given, settings
 
 from wirecut.config import Dialect, FeedRule
 from wirecut.gcode.writer import normalize_program, write_gcode
@@ -181,3 +182,15 @@ def test_interpreter_refuses_what_the_reader_refuses(interpreter, tmp_path):
     result = interpreter("G21 G93\nG1 X1 Y1 U1 V1\nM2\n", tmp_path)
     assert result["result"] > result["min_error"]
     assert "inverse time" in result["error"].lower()
+
+
+@settings(max_examples=15, deadline=None)
+@given(program=programs())
+def test_any_writable_program_parses_and_agrees(program, interpreter, tmp_path_factory):
+    job = job_for(Dialect.XYUV_INVERSE_TIME)
+    result = interpreter(write_gcode(program, job), tmp_path_factory.mktemp("hyp"))
+    _check_parse(result)
+    kinds, towers, _ = _expected_moves(program, job)
+    assert [m["kind"] for m in result["moves"]] == kinds
+    got = np.array([m["xyzabcuvw_mm"] for m in result["moves"]]).reshape(-1, 9)
+    np.testing.assert_allclose(got[:, XYUV_COLUMNS], towers, atol=POS_TOL_MM)
