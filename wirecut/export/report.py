@@ -180,9 +180,12 @@ def _deviation_plot(ax, xy, dev, tol, outlines, labels):
     xy = np.asarray(xy, float).reshape(-1, 2)
     dev = np.asarray(dev, float)
     ok = np.isfinite(dev)
+    # dot area (pt^2) so the samples about fill the axes: half the axes area over the count
+    w, h = ax.get_figure().get_size_inches() * 72.0
+    dot = float(np.clip(0.35 * w * h / max(len(xy), 1), 1.0, 40.0))
     if (~ok).any():
-        ax.scatter(xy[~ok, 0], xy[~ok, 1], s=2, c="0.75", linewidths=0)
-    sc = ax.scatter(xy[ok, 0], xy[ok, 1], s=3, c=dev[ok], cmap=cmap, norm=norm, linewidths=0)
+        ax.scatter(xy[~ok, 0], xy[~ok, 1], s=dot, c="0.75", linewidths=0)
+    sc = ax.scatter(xy[ok, 0], xy[ok, 1], s=dot, c=dev[ok], cmap=cmap, norm=norm, linewidths=0)
     for outline, label in zip(outlines, labels, strict=True):
         o = np.asarray(outline, float).reshape(-1, 2)
         if len(o) < 2:
