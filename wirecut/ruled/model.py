@@ -89,29 +89,58 @@ class RuledCut:
         """True when the rulings do not cross inside the block (x increasing on both faces)."""
         return bool(np.all(np.diff(self.left[:, 0]) > 0) and np.all(np.diff(self.right[:, 0]) > 0))
 
+    def strip_of(
+        self, x: np.ndarray, z: np.ndarray
+    ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+        """Locate machine points (x, z) mm in the cut's strips, vectorized.
+
+        The section knots ``qx_k(t) = (1 - t) left[k, 0] + t right[k, 0]`` are increasing in k
+        for a monotone cut, so a bisection run on all points at once (ceil(log2 K) steps of
+        array operations) finds the strip ``j`` with ``qx_j <= x <= qx_{j+1}``.
+
+        Returns
+        -------
+        j : (n,) int
+            Strip index in 0..K-2 (clipped for points outside).
+        w : (n,) float
+            Position across the strip, ``(x - qx_j) / (qx_{j+1} - qx_j)``, 0..1 inside.
+        t : (n,) float
+            Ruling parameter of z (0 at the left face, 1 at the right).
+        inside : (n,) bool
+            True where x lies within the section at z (z itself may lie outside the faces).
+        """
+        x = np.asarray(x, float)
+        t = self.t_of(z)
+        lx, rx = self.left[:, 0], self.right[:, 0]
+        k = self.n_rulings
+        lo = np.zeros(x.shape, dtype=np.int64)
+        hi = np.full(x.shape, k - 1, dtype=np.int64)
+        for _ in range(int(np.ceil(np.log2(max(k - 1, 1))))):
+            mid = (lo + hi) // 2
+            right_of = (1.0 - t) * lx[mid] + t * rx[mid] <= x
+            lo = np.where(right_of, mid, lo)
+            hi = np.where(right_of, hi, mid)
+        j = np.minimum(lo, k - 2)
+        x0 = (1.0 - t) * lx[j] + t * rx[j]
+        x1 = (1.0 - t) * lx[j + 1] + t * rx[j + 1]
+        first = (1.0 - t) * lx[0] + t * rx[0]
+        last = (1.0 - t) * lx[-1] + t * rx[-1]
+        inside = (x >= first) & (x <= last)
+        w = (x - x0) / np.where(x1 > x0, x1 - x0, 1.0)
+        return j, w, t, inside
+
     def height_at(self, x: np.ndarray, z: np.ndarray) -> np.ndarray:
         """Machine y (mm) of the cut surface above machine (x, z), for a monotone cut.
 
         Exact for the piecewise-bilinear surface: the section at plane z is a polyline, linear
         in x between consecutive rulings. NaN where x lies outside the section.
         """
-        x = np.asarray(x, float)
-        t = self.t_of(z)
-        qx = (1.0 - t)[:, None] * self.left[None, :, 0] + t[:, None] * self.right[None, :, 0]
-        qy = (1.0 - t)[:, None] * self.left[None, :, 1] + t[:, None] * self.right[None, :, 1]
-        # locate x in each row's (monotone) knots
-        idx = np.empty(len(x), dtype=int)
-        for i in range(len(x)):  # replaced by a vectorized search in ruled.deviation
-            idx[i] = np.searchsorted(qx[i], x[i]) - 1
-        k = self.n_rulings
-        inside = (idx >= 0) & (idx < k - 1)
-        j = np.clip(idx, 0, k - 2)
-        rows = np.arange(len(x))
-        x0, x1 = qx[rows, j], qx[rows, j + 1]
-        y0, y1 = qy[rows, j], qy[rows, j + 1]
-        w = (x - x0) / np.where(x1 > x0, x1 - x0, 1.0)
-        y = (1 - w) * y0 + w * y1
-        return np.where(inside | (x == qx[rows, -1]), y, np.nan)
+        j, w, t, inside = self.strip_of(x, z)
+        ly, ry = self.left[:, 1], self.right[:, 1]
+        y0 = (1.0 - t) * ly[j] + t * ry[j]
+        y1 = (1.0 - t) * ly[j + 1] + t * ry[j + 1]
+        y = (1.0 - w) * y0 + w * y1
+        return np.where(inside, y, np.nan)
 
     def to_mesh(self, steps_along_wire: int = 1) -> tuple[np.ndarray, np.ndarray]:
         """Triangle mesh of the cut: vertices (n, 3) mm machine frame, faces (m, 3) int.

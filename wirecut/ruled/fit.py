@@ -1,0 +1,522 @@
+"""Fit a ruled cut to the target samples of one piece.
+
+The target is a height field y(x, z) over the machine (x, z) plane, seen from the waste side.
+The cut has K rulings; ruling k joins ``(xL_k, yL_k, z_left)`` to ``(xR_k, yR_k, z_right)``
+and its mid-plane crossing is the knot ``X_k = (xL_k + xR_k) / 2``, spaced evenly along the
+sweep. For fixed x-positions the cut height at a sample is linear in the 2K unknown heights
+(bilinear strip weights), which gives three steps:
+
+1. **Least squares start** (Chen & Pottmann 1999, "Approximation by ruled surfaces", J. Comput.
+   Appl. Math. 102): vertical rulings (``xL = xR = X``), heights from the sparse normal
+   equations of the area-weighted normal residuals, with a faint second-difference smoothing
+   so strips without samples follow their neighbours.
+2. **Equal-error placement** (the min-max positioning used for flank milling of ruled
+   surfaces, Redonnet, Rubio & Dessein): a sparse LP (scipy ``linprog``, HiGHS) in the 2K
+   heights and a bound eps. ``balanced`` minimizes max |deviation|; ``no-gouge`` keeps every
+   deviation >= 0 and minimizes the largest excess. The LP holds a working set of samples (the
+   extreme residuals per strip and per slab of t) and adds the violated samples after each
+   solve (constraint generation) until all samples satisfy the bound.
+3. **Correspondence**: the skew ``s_k = xR_k - xL_k`` of each ruling (mid-plane knot fixed) is
+   optimized jointly with the heights by ``scipy.optimize.least_squares`` (trf, analytic
+   sparse Jacobian: a sample depends only on the two rulings of its strip). It is seeded from
+   the target's asymptotic directions (a local quadratic fit of the height field at each knot:
+   the directions along which its Hessian vanishes, either family, tried both; the direction
+   of least normal curvature where there is none; only slopes |dx/dz| <= 1, i.e. rulings
+   within 45 degrees of the wire axis, which also bounds the skew). Box bounds
+   ``|s_k - seed_k| <= 0.45 dX`` on a seed with ``|seed_{k+1} - seed_k| <= dX`` keep the
+   rulings from crossing. Step 2 is then run again, and the result is kept only when it
+   lowers the max deviation.
+
+Ruling spacing: the chord between two rulings of a section of curvature kappa sags by
+``kappa H^2 / 8``; ``H = sqrt(8 * 0.1 tol / kappa)`` keeps that at 10 % of the tolerance,
+clamped to 5..100 mm, with kappa the 95th percentile of the sweep curvature estimated from
+second differences of cell-averaged sample heights.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+import scipy.sparse as sp
+from scipy.optimize import linprog
+from scipy.sparse.linalg import spsolve
+
+from wirecut.config import Policy, ToleranceSpec
+from wirecut.errors import JobError
+from wirecut.ruled.deviation import DeviationReport, signed_deviation
+from wirecut.ruled.model import RuledCut
+from wirecut.ruled.sampling import TargetSamples
+
+__all__ = ["RuledFit", "fit_cut", "estimate_sweep_curvature", "ruling_spacing_for"]
+
+_SMOOTH = 1e-3  # relative weight of the second-difference smoothing rows
+_LP_ROUNDS = 12
+_T_SLABS = 8
+_MAX_LSQ_SAMPLES = 8_000
+_LM_STEPS = 20
+_SEED_GAIN = 0.98  # a seeded skew must lower the least-squares cost by 2 % to run step 3
+_MAX_SLOPE = 1.0  # rulings within 45 degrees of the wire axis (|dx/dz| <= 1)
+
+
+@dataclass(frozen=True)
+class RuledFit:
+    """A fitted cut and how well it meets the target.
+
+    Attributes
+    ----------
+    cut : RuledCut
+        The cut, machine frame.
+    report : DeviationReport
+        Deviation of the cut from the samples it was fitted to.
+    n_rulings : int
+        Number of rulings K.
+    objective : float, mm
+        The LP bound eps: max |deviation| (balanced) or max excess (no-gouge), linearized.
+    iterations : int
+        LP rounds plus least-squares evaluations spent.
+    ruling_spacing_mm : float
+        Knot spacing H along the sweep, mm.
+    skewed : bool
+        True when the correspondence step (3) was kept.
+    samples : TargetSamples or None
+        The samples the report refers to (same order as ``report.signed``).
+    """
+
+    cut: RuledCut
+    report: DeviationReport
+    n_rulings: int
+    objective: float
+    iterations: int
+    ruling_spacing_mm: float = 0.0
+    skewed: bool = False
+    samples: TargetSamples | None = None
+
+
+def _local_hessians(x, y, z, centers, h, z_mid, half_width):
+    """Quadratic fits ``y ~ a + b dx + c dz + (p dx^2 + 2 q dx dz + r dz^2) / 2`` over the
+    samples within 1.5 h of each centre (all z). Returns p, q, r (1/mm), b (mm/mm), ok."""
+    order = np.argsort(x, kind="stable")
+    xs = x[order]
+    n = len(centers)
+    p, q, r, b = (np.zeros(n) for _ in range(4))
+    ok = np.zeros(n, bool)
+    lo_hi = np.searchsorted(xs, np.column_stack([centers - 1.5 * h, centers + 1.5 * h]))
+    for k, (i0, i1) in enumerate(lo_hi):
+        sel = order[i0:i1]
+        if len(sel) < 12:
+            continue
+        if len(sel) > 800:
+            sel = sel[:: len(sel) // 800 + 1]
+        u = (x[sel] - centers[k]) / h
+        v = (z[sel] - z_mid) / half_width
+        basis = np.column_stack([np.ones_like(u), u, v, u * u, u * v, v * v])
+        gram = basis.T @ basis
+        if np.linalg.cond(gram) > 1e10:
+            continue
+        coef = np.linalg.solve(gram, basis.T @ y[sel])
+        p[k] = 2.0 * coef[3] / h**2
+        q[k] = coef[4] / (h * half_width)
+        r[k] = 2.0 * coef[5] / half_width**2
+        b[k] = coef[1] / h
+        ok[k] = True
+    return p, q, r, b, ok
+
+
+def estimate_sweep_curvature(points: np.ndarray, window_mm: float | None = None) -> float:
+    """95th percentile of the curvature (1/mm) of the sections z = const of a height field.
+
+    ``points`` (n, 3) mm machine frame. A quadratic in (x, z) is fitted to the samples within
+    1.5 windows (``window_mm``, default 1/30 of the x extent, at least 10 mm) of centres half a
+    window apart; the section curvature is ``|y_xx| / (1 + y_x^2)^1.5``. 0 when flat.
+    """
+    p = np.asarray(points, float)
+    if len(p) < 12:
+        return 0.0
+    x, y, z = p[:, 0], p[:, 1], p[:, 2]
+    ex, ez = float(np.ptp(x)), float(np.ptp(z))
+    if ex <= 0:
+        return 0.0
+    win = float(window_mm) if window_mm else max(ex / 30.0, 10.0)
+    centers = np.arange(x.min() + 0.5 * win, x.max(), 0.5 * win)
+    if len(centers) == 0:
+        centers = np.array([0.5 * (x.min() + x.max())])
+    zm = 0.5 * (z.min() + z.max())
+    pp, _, _, b, ok = _local_hessians(x, y, z, centers, win, zm, max(0.5 * ez, 1.0))
+    if not ok.any():
+        return 0.0
+    k = np.abs(pp[ok]) / (1.0 + b[ok] ** 2) ** 1.5
+    return float(np.percentile(k, 95))
+
+
+def ruling_spacing_for(tolerance_mm: float, sweep_curvature_per_mm: float) -> float:
+    """Knot spacing H (mm) whose chord sag ``kappa H^2 / 8`` is 10 % of the tolerance,
+    clamped to 5..100 mm."""
+    kappa = max(float(sweep_curvature_per_mm), 1e-12)
+    return float(np.clip(math.sqrt(8.0 * 0.1 * float(tolerance_mm) / kappa), 5.0, 100.0))
+
+
+# --------------------------------------------------------------------------- the linear model
+
+
+def _cut(xl, xr, yl, yr, z_left, z_right, m) -> RuledCut:
+    return RuledCut(np.column_stack([xl, yl]), np.column_stack([xr, yr]), z_left, z_right, m)
+
+
+def _design(cut: RuledCut, x: np.ndarray, z: np.ndarray) -> tuple[sp.csr_matrix, np.ndarray]:
+    """Sparse (n, 2K) matrix A with cut height = A @ [yL, yR], and the inside mask."""
+    j, w, t, inside = cut.strip_of(x, z)
+    k = cut.n_rulings
+    n = len(x)
+    rows = np.repeat(np.arange(n), 4)
+    cols = np.column_stack([j, k + j, j + 1, k + j + 1]).ravel()
+    vals = np.column_stack([(1 - w) * (1 - t), (1 - w) * t, w * (1 - t), w * t]).ravel()
+    return sp.csr_matrix((vals, (rows, cols)), shape=(n, 2 * k)), inside
+
+
+def _second_difference(k: int) -> sp.csr_matrix:
+    if k < 3:
+        return sp.csr_matrix((0, k))
+    return sp.diags([1.0, -2.0, 1.0], [0, 1, 2], shape=(k - 2, k), format="csr")
+
+
+def _least_squares_heights(a, yt, c, k) -> np.ndarray:
+    """Step 1: min sum c_i^2 (a_i y - yt_i)^2 + smoothing, by the sparse normal equations."""
+    ac = sp.diags(c) @ a
+    d2 = _second_difference(k)
+    reg = sp.block_diag([d2, d2]).tocsr()
+    lam2 = _SMOOTH**2 * float((c * c).sum()) / max(k, 1)
+    lhs = (ac.T @ ac + lam2 * (reg.T @ reg) + 1e-12 * lam2 * sp.eye(2 * k)).tocsc()
+    return np.asarray(spsolve(lhs, ac.T @ (c * yt)), float)
+
+
+def _cells(a_rows_strip: np.ndarray, t: np.ndarray) -> np.ndarray:
+    slab = np.clip((t * _T_SLABS).astype(int), 0, _T_SLABS - 1)
+    return a_rows_strip * _T_SLABS + slab
+
+
+def _extremes_per_cell(cell: np.ndarray, r: np.ndarray, among: np.ndarray) -> np.ndarray:
+    """Indices (into the full arrays) of the min and max of r per cell, over ``among``."""
+    idx = np.flatnonzero(among)
+    if len(idx) == 0:
+        return idx
+    order = idx[np.lexsort((r[idx], cell[idx]))]
+    cs = cell[order]
+    starts = np.flatnonzero(np.r_[True, cs[1:] != cs[:-1]])
+    ends = np.r_[starts[1:] - 1, len(order) - 1]
+    return np.unique(np.concatenate([order[starts], order[ends]]))
+
+
+def _equal_error(a, yt, ny, cell, y0, policy: Policy, tol: float):
+    """Step 2: the min-max LP with constraint generation. Returns (y, eps, rounds)."""
+    n, nv = a.shape
+    used = np.asarray(abs(a).sum(axis=0)).ravel() > 0
+    r0 = ny * (a @ y0 - yt)
+    spread = float(np.abs(r0).max()) if n else 0.0
+    box = 4.0 * spread + 2.0 * tol + 1.0
+    lb = np.where(used, y0 - box, y0)
+    ub = np.where(used, y0 + box, y0)
+    bounds = list(zip(lb, ub, strict=True)) + [(0.0, None)]
+    cost = np.zeros(nv + 1)
+    cost[-1] = 1.0
+    work = _extremes_per_cell(cell, r0, np.ones(n, bool))
+    y, eps = y0, spread
+    slack = 1e-6 + 1e-6 * tol
+    rounds = 0
+    while rounds < _LP_ROUNDS:
+        rounds += 1
+        aw = sp.diags(ny[work]) @ a[work]
+        bw = ny[work] * yt[work]
+        one = sp.csr_matrix(np.ones((len(work), 1)))
+        if policy is Policy.NO_GOUGE:
+            # excess = aw y - bw <= eps ; gouge: -(aw y - bw) <= 0
+            a_ub = sp.vstack([sp.hstack([aw, -one]), sp.hstack([-aw, 0 * one])])
+        else:
+            a_ub = sp.vstack([sp.hstack([aw, -one]), sp.hstack([-aw, -one])])
+        b_ub = np.concatenate([bw, -bw])
+        res = linprog(cost, A_ub=a_ub.tocsr(), b_ub=b_ub, bounds=bounds, method="highs")
+        if res.status != 0 or res.x is None:
+            break
+        y, eps = res.x[:nv], float(res.x[-1])
+        r = ny * (a @ y - yt)
+        if policy is Policy.NO_GOUGE:
+            bad = (r > eps + slack) | (r < -slack)
+        else:
+            bad = np.abs(r) > eps + slack
+        if not bad.any():
+            break
+        work = np.union1d(work, _extremes_per_cell(cell, r, bad))
+    return y, eps, rounds
+
+
+# --------------------------------------------------------------------------- the skew step
+
+
+def _skew_seeds(x, y, z, knots, h, z_mid, half_width) -> tuple[np.ndarray, np.ndarray]:
+    """Two seeds of the ruling slope dx/dz per knot: the two asymptotic families of a local
+    quadratic fit of y(x, z) (roots m of ``p m^2 + 2 q m + r = 0``, higher root, lower root);
+    the least-curved direction ``m = -q / p`` where the height field has no asymptotic
+    direction (synclastic), 0 where it is flat."""
+    p, q, r, _, ok = _local_hessians(x, y, z, knots, h, z_mid, half_width)
+    hi = np.zeros(len(knots))
+    lo = np.zeros(len(knots))
+    for k in np.flatnonzero(ok):
+        scale = abs(p[k]) + abs(q[k]) + abs(r[k])
+        if scale < 1e-9:
+            continue
+        disc = q[k] ** 2 - p[k] * r[k]
+        if disc < 0:
+            m = -q[k] / p[k]
+            hi[k] = lo[k] = m if abs(m) <= _MAX_SLOPE else 0.0
+            continue
+        big = q[k] + math.copysign(math.sqrt(disc), q[k])
+        roots = []
+        if abs(big) > 1e-9 * scale:
+            roots.append(-r[k] / big)  # the small root, stable as p -> 0
+        if abs(p[k]) > 1e-9 * scale:
+            roots.append(-big / p[k])
+        roots = [m for m in roots if abs(m) <= _MAX_SLOPE]
+        if roots:
+            hi[k], lo[k] = max(roots), min(roots)
+    return hi, lo
+
+
+def _monotone_seed(s: np.ndarray, dx: float, s_end: tuple[float, float]) -> np.ndarray:
+    """Clip a skew seed so neighbouring skews differ by at most dx and the end rulings keep
+    the samples covered (|s_0| <= s_end[0], |s_last| <= s_end[1])."""
+    s = s.copy()
+    s[0] = np.clip(s[0], -s_end[0], s_end[0])
+    s[-1] = np.clip(s[-1], -s_end[1], s_end[1])
+    for k in range(1, len(s)):
+        s[k] = np.clip(s[k], s[k - 1] - dx, s[k - 1] + dx)
+    for k in range(len(s) - 2, -1, -1):
+        s[k] = np.clip(s[k], s[k + 1] - dx, s[k + 1] + dx)
+    return s
+
+
+def _skew_solve(pts, c, knots, s0, y0, z_left, z_right, m, lb, ub):
+    """Joint least squares in (skew, heights): Levenberg-Marquardt (Levenberg 1944, Marquardt
+    1963) on the sparse normal equations of an analytic Jacobian, box bounds by projection."""
+    k = len(knots)
+    x, yt, z = pts[:, 0], pts[:, 1], pts[:, 2]
+    d2 = _second_difference(k)
+    lam = _SMOOTH * math.sqrt(float((c * c).sum()) / max(k, 1))
+    reg = lam * sp.block_diag([d2, d2, d2]).tocsr()
+    n = len(x)
+
+    def parts(v):
+        s, yl, yr = v[:k], v[k : 2 * k], v[2 * k :]
+        cut = _cut(knots - s / 2, knots + s / 2, yl, yr, z_left, z_right, m)
+        j, w, t, _ = cut.strip_of(x, z)
+        y0_ = (1 - t) * yl[j] + t * yr[j]
+        y1_ = (1 - t) * yl[j + 1] + t * yr[j + 1]
+        x0 = knots[j] + (t - 0.5) * s[j]
+        x1 = knots[j + 1] + (t - 0.5) * s[j + 1]
+        g = (y1_ - y0_) / np.where(x1 > x0, x1 - x0, 1.0)
+        return j, w, t, g, (1 - w) * y0_ + w * y1_
+
+    def fun(v):
+        *_, yc = parts(v)
+        return np.concatenate([c * (yc - yt), reg @ v])
+
+    def jac(v):
+        j, w, t, g, _ = parts(v)
+        rows = np.repeat(np.arange(n), 6)
+        cols = np.column_stack([j, j + 1, k + j, 2 * k + j, k + j + 1, 2 * k + j + 1]).ravel()
+        tm = t - 0.5
+        vals = np.column_stack(
+            [
+                -(1 - w) * g * tm,
+                -w * g * tm,
+                (1 - w) * (1 - t),
+                (1 - w) * t,
+                w * (1 - t),
+                w * t,
+            ]
+        )
+        data = sp.csr_matrix(((vals * c[:, None]).ravel(), (rows, cols)), shape=(n, 3 * k))
+        return sp.vstack([data, reg]).tocsr()
+
+    v = np.concatenate([s0, y0])
+    lo = np.concatenate([lb, np.full(2 * k, -np.inf)])
+    hi = np.concatenate([ub, np.full(2 * k, np.inf)])
+    v = np.clip(v, lo, hi)
+    r = fun(v)
+    cost = float(r @ r)
+    mu = 1e-3
+    evals = 1
+    for _ in range(_LM_STEPS):
+        jm = jac(v)
+        jtj = (jm.T @ jm).tocsc()
+        grad = jm.T @ r
+        diag = jtj.diagonal() + 1e-12
+        improved = False
+        while mu < 1e8:
+            step = spsolve(jtj + sp.diags(mu * diag), -grad)
+            trial = np.clip(v + step, lo, hi)
+            rt = fun(trial)
+            evals += 1
+            ct = float(rt @ rt)
+            if ct < cost:
+                improved = True
+                shrink = (cost - ct) / max(cost, 1e-300)
+                v, r, cost = trial, rt, ct
+                mu = max(mu / 10.0, 1e-9)
+                break
+            mu *= 10.0
+        if not improved or shrink < 1e-8 or cost < 1e-24:
+            break
+    return v[:k], v[k:], evals
+
+
+def _merit(report: DeviationReport, policy: Policy) -> float:
+    if policy is Policy.NO_GOUGE:
+        return report.max_excess_mm + 10.0 * report.max_gouge_mm
+    return report.max_abs_mm
+
+
+# --------------------------------------------------------------------------- the fit
+
+
+def fit_cut(
+    samples: TargetSamples,
+    z_left: float,
+    z_right: float,
+    part_to_machine: np.ndarray,
+    tolerance: ToleranceSpec,
+    x_range: tuple[float, float] | None = None,
+    ruling_spacing_mm: float | None = None,
+    *,
+    sweep_curvature_per_mm: float | None = None,
+    correspondence: bool = True,
+) -> RuledFit:
+    """Fit a ruled cut between the faces ``z_left < z_right`` (mm, machine) to ``samples``.
+
+    Parameters
+    ----------
+    samples : TargetSamples
+        Target samples in this setup's machine frame.
+    z_left, z_right : float, mm
+        The block's two end faces.
+    part_to_machine : (4, 4) float
+        Stored on the cut.
+    tolerance : ToleranceSpec
+        Surface tolerance (mm) and policy (balanced or no-gouge).
+    x_range : (float, float), optional
+        Sweep extent (mm) the rulings span; default the samples' x extent plus one ruling
+        spacing and half the largest seeded ruling skew on each side.
+    ruling_spacing_mm : float, optional
+        Knot spacing H; default from the sweep curvature (chord sag 10 % of the tolerance).
+    sweep_curvature_per_mm : float, optional
+        Curvature used for H when ``ruling_spacing_mm`` is not given; default estimated.
+    correspondence : bool
+        Run step 3 (ruling skew); off gives vertical rulings (a quicker score).
+
+    Returns
+    -------
+    RuledFit
+    """
+    if not z_left < z_right:
+        raise JobError(f"fit needs z_left < z_right, got {z_left!r} and {z_right!r}")
+    tol = float(tolerance.surface_mm)
+    policy = Policy(tolerance.policy)
+    pts = samples.points
+    zin = (pts[:, 2] >= z_left - 1e-9) & (pts[:, 2] <= z_right + 1e-9)
+    use = zin & ~samples.undercut
+    if use.sum() < 3:
+        raise JobError(
+            f"no reachable target samples between z = {z_left:g} and {z_right:g} mm to fit"
+        )
+    up = pts[use]
+    width = z_right - z_left
+    if ruling_spacing_mm is not None:
+        h = float(ruling_spacing_mm)
+        if not h > 0:
+            raise JobError(f"ruling spacing must be > 0 mm, got {ruling_spacing_mm!r}")
+    else:
+        kappa = (
+            estimate_sweep_curvature(up)
+            if sweep_curvature_per_mm is None
+            else float(sweep_curvature_per_mm)
+        )
+        h = ruling_spacing_for(tol, kappa)
+    xmin, xmax = float(up[:, 0].min()), float(up[:, 0].max())
+    z_mid, half = 0.5 * (z_left + z_right), 0.5 * width
+    seeds = None
+    if x_range is None:
+        margin = h
+        if correspondence:
+            coarse = np.linspace(xmin, xmax, max(int((xmax - xmin) / h) + 1, 2))
+            seeds = _skew_seeds(up[:, 0], up[:, 1], up[:, 2], coarse, h, z_mid, half)
+            reach = float(np.max(np.abs(np.concatenate(seeds)))) * half
+            margin = h + min(reach, 2.0 * width)
+        x0, x1 = xmin - margin, xmax + margin
+    else:
+        x0, x1 = float(x_range[0]), float(x_range[1])
+        if not x0 < x1:
+            raise JobError(f"x_range must be increasing, got {x_range!r}")
+    k = max(int(math.ceil((x1 - x0) / h)) + 1, 2)
+    knots = np.linspace(x0, x1, k)
+    dx = float(knots[1] - knots[0])
+    h = dx
+
+    ny_t = np.clip(samples.normals[use, 1], 0.05, 1.0)
+    c = np.sqrt(np.maximum(samples.weights[use], 0.05 * max(samples.weights[use].mean(), 1e-12)))
+    c = c * ny_t
+    x, yt, z = up[:, 0], up[:, 1], up[:, 2]
+
+    def linear_fit(s: np.ndarray, y_start: np.ndarray | None):
+        flat = _cut(
+            knots - s / 2, knots + s / 2, np.zeros(k), np.zeros(k), z_left, z_right, part_to_machine
+        )
+        a, _ = _design(flat, x, z)
+        y1 = _least_squares_heights(a, yt, c, k) if y_start is None else y_start
+        j, _, t, _ = flat.strip_of(x, z)
+        y2, eps, rounds = _equal_error(a, yt, ny_t, _cells(j, t), y1, policy, tol)
+        cut = _cut(knots - s / 2, knots + s / 2, y2[:k], y2[k:], z_left, z_right, part_to_machine)
+        return cut, eps, rounds, y1
+
+    s_zero = np.zeros(k)
+    cut, eps, iterations, _ = linear_fit(s_zero, None)
+    report = signed_deviation(cut, samples, tolerance)
+    skewed = False
+    if correspondence and report.max_abs_mm > 1e-6:
+        hi, lo = _skew_seeds(x, yt, z, knots, h, z_mid, half)
+        s_end = (2.0 * max(xmin - x0, 0.0) * 0.98, 2.0 * max(x1 - xmax, 0.0) * 0.98)
+        tried = []
+        for m in (s_zero, hi, lo):
+            s = _monotone_seed(m * width, dx, s_end)
+            flat = _cut(knots - s / 2, knots + s / 2, s_zero, s_zero, z_left, z_right, None)
+            a, _ = _design(flat, x, z)
+            y1 = _least_squares_heights(a, yt, c, k)
+            tried.append((float(np.sum((c * (a @ y1 - yt)) ** 2)), s, y1))
+        cost, s, y1 = min(tried[1:], key=lambda e: e[0])
+        if not np.any(s) or cost >= _SEED_GAIN * tried[0][0]:
+            # no seeded skew beats vertical rulings: nothing for step 3 to start from
+            return RuledFit(cut, report, k, float(eps), int(iterations), h, skewed, samples)
+        sub = np.arange(len(x))
+        if len(sub) > _MAX_LSQ_SAMPLES:
+            sub = np.random.default_rng(0).choice(len(x), _MAX_LSQ_SAMPLES, replace=False)
+        pts_sub = np.column_stack([x, yt, z])[sub]
+        for _ in range(2):
+            reach = _MAX_SLOPE * width
+            lb = np.maximum(s - 0.45 * dx, np.r_[-s_end[0], np.full(k - 2, -reach), -s_end[1]])
+            ub = np.minimum(s + 0.45 * dx, np.r_[s_end[0], np.full(k - 2, reach), s_end[1]])
+            ub = np.maximum(ub, lb + 1e-9)
+            s_new, y_new, nfev = _skew_solve(
+                pts_sub, c[sub], knots, s, y1, z_left, z_right, part_to_machine, lb, ub
+            )
+            iterations += nfev
+            at_bound = np.any(np.isclose(s_new, lb) | np.isclose(s_new, ub))
+            s, y1 = s_new, y_new
+            if not at_bound:
+                break
+        cut3, eps3, rounds3, _ = linear_fit(s, y1)
+        iterations += rounds3
+        if cut3.is_monotone():
+            report3 = signed_deviation(cut3, samples, tolerance)
+            covered = int(report3.outside.sum()) <= int(report.outside.sum())
+            if covered and _merit(report3, policy) < _merit(report, policy):
+                cut, eps, report, skewed = cut3, eps3, report3, True
+    return RuledFit(cut, report, k, float(eps), int(iterations), h, skewed, samples)
