@@ -253,12 +253,11 @@ def calibrate(
             raise OutputError(f"--plot {plot} is a folder, not a file")
         check_output_dir(plot.parent if str(plot.parent) else Path("."))
         result.write_plot(plot)
-    if not quiet:
-        for line in result.summary_lines():
-            typer.echo(line)
     for line in result.toml_lines():
         typer.echo(line)
-    raise typer.Exit(EXIT_OK)
+    if not quiet:
+        _print_findings(_Console(False), result.findings)
+    raise typer.Exit(_exit_for(result.findings))
 
 
 def main(argv: list[str] | None = None) -> int:
