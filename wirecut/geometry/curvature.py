@@ -38,8 +38,9 @@ from wirecut.geometry.mesh import TargetSurface, boundary_vertex_mask
 
 __all__ = ["Curvature", "vertex_curvature", "angle_defects", "mixed_areas", "tangent_frames"]
 
-_CHUNK = 20_000  # vertices per batch of the quadric fit
-_IU = np.triu_indices(5)
+_CHUNK = 10_000  # vertices per batch of the quadric fit
+_NP = 9  # coefficients of the cubic height fit
+_MAX_RING = 32  # neighbours per vertex used by the fit at most
 
 
 @dataclass(frozen=True, eq=False)
@@ -173,45 +174,62 @@ def _two_ring(faces: np.ndarray, n: int) -> sparse.csr_matrix:
 def _fit_quadrics(
     vertices: np.ndarray, normals: np.ndarray, ring: sparse.csr_matrix
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Least-squares quadric coefficients (n, 5) in frames (t1, t2, normal); returns coef, t1, t2."""
+    """Least-squares fit coefficients (n, 9) in frames (t1, t2, normal), and t1, t2.
+
+    ``h = a u^2 + b u v + c v^2 + d u + e v + f u^3 + g u^2 v + p u v^2 + q v^3``: the cubic terms
+    (as in the cubic-order fit of Goldfeather and Interrante 2004, "A novel cubic-order algorithm
+    for approximating principal direction vectors") keep the quadratic ones unbiased where the
+    neighbourhood is lopsided, near a boundary. Vertices with fewer than 12 neighbours use the
+    first five terms only.
+    """
     n = len(vertices)
     t1, t2 = tangent_frames(normals)
-    coef = np.zeros((n, 5))
+    coef = np.zeros((n, _NP))
     indptr, indices = ring.indptr, ring.indices
     for start in range(0, n, _CHUNK):
         stop = min(n, start + _CHUNK)
         lo, hi = indptr[start], indptr[stop]
         cols = indices[lo:hi]
-        rows = np.repeat(np.arange(start, stop), np.diff(indptr[start : stop + 1]))
+        count = np.diff(indptr[start : stop + 1])
+        rows = np.repeat(np.arange(start, stop), count)
         d = vertices[cols] - vertices[rows]
         u = np.einsum("ij,ij->i", d, t1[rows])
         v = np.einsum("ij,ij->i", d, t2[rows])
         h = np.einsum("ij,ij->i", d, normals[rows])
         # scale each row's coordinates by its neighbourhood size for conditioning
-        scale = np.sqrt(np.bincount(rows - start, weights=u * u + v * v, minlength=stop - start))
-        scale = np.where(
-            scale > 0, scale / np.sqrt(np.maximum(np.diff(indptr[start : stop + 1]), 1)), 1.0
-        )
-        s = scale[rows - start]
+        local = rows - start
+        scale = np.sqrt(np.bincount(local, weights=u * u + v * v, minlength=stop - start))
+        scale = np.where(scale > 0, scale / np.sqrt(np.maximum(count, 1)), 1.0)
+        s = scale[local]
         us, vs, hs = u / s, v / s, h / s
-        phi = np.column_stack([us * us, us * vs, vs * vs, us, vs])
-        # the 15 distinct products of the normal matrix and the 5 of the right-hand side,
-        # summed per vertex by one sparse product (rows of a CSR chunk are contiguous)
-        prod = np.column_stack([phi[:, _IU[0]] * phi[:, _IU[1]], phi * hs[:, None]])
-        pick = sparse.csr_matrix(
-            (np.ones(hi - lo), np.arange(hi - lo), indptr[start : stop + 1] - lo),
-            shape=(stop - start, hi - lo),
-        )
-        sums = pick @ prod
-        ata = np.zeros((stop - start, 5, 5))
-        ata[:, _IU[0], _IU[1]] = sums[:, :15]
-        ata[:, _IU[1], _IU[0]] = sums[:, :15]
-        atb = sums[:, 15:]
+        # neighbours padded to a fixed width (extra ones beyond _MAX_RING dropped), zero rows
+        # are inert in the normal equations; one batched matrix product per chunk
+        pos = np.arange(hi - lo) - (indptr[start:stop] - lo)[local]
+        keep = pos < _MAX_RING
+        width = int(min(_MAX_RING, count.max() if len(count) else 1))
+        phi = np.zeros((stop - start, width, _NP))
+        rhs = np.zeros((stop - start, width))
+        li, pi = local[keep], pos[keep]
+        uk, vk = us[keep], vs[keep]
+        for col, val in enumerate(
+            (uk * uk, uk * vk, vk * vk, uk, vk, uk**3, uk * uk * vk, uk * vk * vk, vk**3)
+        ):
+            phi[li, pi, col] = val
+        rhs[li, pi] = hs[keep]
+        ata = np.matmul(phi.transpose(0, 2, 1), phi)
+        atb = np.matmul(phi.transpose(0, 2, 1), rhs[:, :, None])[:, :, 0]
+        count = np.minimum(count, _MAX_RING)
+        few = count < 12
+        ata[few, 5:, :] = 0.0
+        ata[few, :, 5:] = 0.0
+        ata[few, 5:, 5:] = np.eye(_NP - 5)
+        atb[few, 5:] = 0.0
         # a tiny ridge keeps vertices with too few neighbours solvable (they come out flat)
-        ata += 1e-9 * np.eye(5)
+        ata += 1e-9 * np.eye(_NP)
         sol = np.linalg.solve(ata, atb[:, :, None])[:, :, 0]
-        sc = scale
-        sol[:, :3] /= sc[:, None]  # h/s = a (u/s)^2 s ... undo the scaling of second-order terms
+        # h/s = (a s)(u/s)^2 + d (u/s) + (f s^2)(u/s)^3: undo the scaling
+        sol[:, :3] /= scale[:, None]
+        sol[:, 5:] /= (scale**2)[:, None]
         coef[start:stop] = sol
     return coef, t1, t2
 
@@ -240,7 +258,7 @@ def vertex_curvature(target: TargetSurface) -> Curvature:
 
     normals = target.vertex_normals
     coef, t1, t2 = _fit_quadrics(v, normals, _two_ring(f, n))
-    a, b, c, d, e = coef.T
+    a, b, c, d, e = coef[:, :5].T
     E, F, G = 1.0 + d * d, d * e, 1.0 + e * e
     g = np.sqrt(1.0 + d * d + e * e)
     L, M, N = 2.0 * a / g, b / g, 2.0 * c / g

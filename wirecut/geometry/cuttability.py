@@ -20,14 +20,14 @@ Wire reach (per vertex, mm)
     geometry; ``w = 2R`` when ``s >= R``). Developable and ruled points have a direction of zero
     normal curvature (the ruling, or the two asymptotic directions), so second order gives no
     limit: the reach is **measured** by marching along the tangent line through the vertex in
-    both directions, in steps ``h = max(mean edge, extent / 128)``, taking the signed distance of
+    both directions, in steps ``h = extent / 128``, taking the signed distance of
     each line point from the surface (nearest vertex, its tangent plane plus the second-order term
     ``(k1 (t.dir1)^2 + k2 (t.dir2)^2) / 2`` of its fitted quadric) and stopping where the line
     leaves the surface (lateral offset from the nearest vertex over twice the mean edge). The reach
     is the longest window of samples through the vertex whose range of distances is at most ``s``
     (the line may shift along the normal but is not tilted: conservative for lopsided windows).
-    Marching runs on at most 2000 vertices chosen deterministically (the lowest-index candidate per
-    cell of a plan grid); the others take the reach of the nearest marched vertex and their own
+    Marching runs on at most 2000 interior vertices chosen deterministically (the lowest-index
+    candidate per cell of a plan grid); the others (boundary vertices included) take the reach of the nearest marched vertex and their own
     direction most parallel to its direction. Every reach is capped at the surface's extent (the
     diagonal of its bounding box).
 
@@ -129,7 +129,7 @@ class SurfaceAnalysis:
         return float(self.vertex_area[mask].sum() / total) if total > 0 else 0.0
 
     def feasible_area_fraction(self, min_width_mm: float) -> float:
-        """Share of the area (0..1) where the reach is at least ``min_width_mm`` and not undercut."""
+        """Share of the area (0..1) with reach >= ``min_width_mm`` and no undercut."""
         return self._fraction((self.wire_reach_mm >= min_width_mm) & ~self.undercut)
 
     def summary_json(self, min_width_mm: float | None = None) -> dict:
@@ -237,11 +237,16 @@ def analyse_surface(target: TargetSurface, job: JobProfile) -> SurfaceAnalysis:
     marched = np.zeros(len(kind), bool)
     cand = np.flatnonzero(kind != SYNCLASTIC)
     if cand.size:
-        pick = _deterministic_subsample(target, cand, MAX_MARCHED)
+        # march from interior vertices (one-sided boundary fits give poorer directions)
+        inner = cand[cu.interior[cand]]
+        pick = _deterministic_subsample(target, inner if inner.size else cand, MAX_MARCHED)
         options = _direction_options(cu, least)
+        # a developable point marches along its ruling: asymptotic directions of a nearly
+        # zero k1 k2 lean off the ruling by atan(sqrt(|k_small / k_big|))
+        options[kind == DEVELOPABLE, :2] = np.nan
         best_len = np.zeros(len(pick))
         best_dir = np.zeros((len(pick), 3))
-        step = max(target.mean_edge_mm, extent / _STEPS)
+        step = extent / _STEPS
         probe = _SurfaceProbe(target, cu)
         for o in range(options.shape[1]):
             dirs = options[pick, o]
@@ -324,7 +329,7 @@ class _SurfaceProbe:
         self.outward = _outward_boundary_directions(target)
 
     def __call__(self, q: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        """Distances (k,) mm (+ toward the waste side) and an on-surface flag (k,) for points (k, 3)."""
+        """Distances (k,) mm (+ toward the waste) and on-surface flags (k,) of points (k, 3)."""
         dist, j = self.tree.query(q, distance_upper_bound=self.reach)
         hit = np.isfinite(dist)
         j = np.where(hit, j, 0)
@@ -372,7 +377,7 @@ def _march(
     max_len: float,
     allowed: float,
 ) -> np.ndarray:
-    """Longest window (mm) through each vertex ``idx`` along ``dirs`` with deviation range <= allowed."""
+    """Longest window (mm) through vertices ``idx`` along ``dirs``, deviation range <= allowed."""
     k = int(min(_STEPS, np.ceil(max_len / step)))
     s = step * np.arange(k + 1)
     out = np.zeros(len(idx))

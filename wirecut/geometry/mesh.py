@@ -270,7 +270,9 @@ def _read_arrays(path: Path) -> tuple[np.ndarray, np.ndarray]:
     except MeshError:
         raise
     except Exception as exc:
-        raise MeshError(f"mesh file {name} cannot be turned into a mesh ({exc.__class__.__name__})")
+        raise MeshError(
+            f"mesh file {name} cannot be turned into a mesh ({exc.__class__.__name__})"
+        ) from None
     return vertices, faces
 
 
@@ -429,7 +431,7 @@ def _build(
 
 
 def _units_check(raw_diag: float, unit: Units, label: str) -> list[Finding]:
-    """An attention finding when the size in mm is implausible, naming a ``--units`` that fixes it."""
+    """An attention finding when the size in mm is implausible, naming a ``--units`` fix."""
     lo, hi = _PLAUSIBLE_DIAGONAL_MM
     diag = raw_diag * unit.to_mm
     if lo <= diag <= hi:

@@ -1,0 +1,115 @@
+"""Discrete curvature against closed-form surfaces."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+import trimesh
+from shapes import cone, cylinder, icosphere, saddle, sphere_cap
+
+from wirecut.config import default_job
+from wirecut.geometry.curvature import angle_defects, mixed_areas, vertex_curvature
+from wirecut.geometry.mesh import target_from_arrays
+
+JOB = default_job()
+C = 2000.0  # saddle z = x y / C, mm
+
+
+def _curv(v, f):
+    target, _ = target_from_arrays(v, f, JOB)
+    return target, vertex_curvature(target)
+
+
+def test_saddle_gaussian_curvature():
+    target, cu = _curv(*saddle(c=C, half=500.0, n=101))
+    x, y = target.vertices[:, 0], target.vertices[:, 1]
+    # graph z = f(x, y): K = (f_xx f_yy - f_xy^2) / (1 + f_x^2 + f_y^2)^2; for f = x y / c this is
+    # K = -c^2 / (c^2 + x^2 + y^2)^2 (do Carmo, Differential Geometry of Curves and Surfaces, 3-3)
+    expected = -(C**2) / (C**2 + x**2 + y**2) ** 2
+    i = cu.interior
+    assert i.sum() == 99 * 99  # the 101 x 101 grid minus its boundary ring
+    assert np.isnan(cu.gaussian[~i]).all()
+    assert np.abs(cu.gaussian[i] / expected[i] - 1).max() < 0.02
+    # the quadric fit agrees: k1 k2 = K
+    assert np.abs(cu.k1[i] * cu.k2[i] / expected[i] - 1).max() < 0.02
+
+
+def test_saddle_asymptotic_directions_are_the_rulings():
+    target, cu = _curv(*saddle(c=C, half=500.0, n=101))
+    x, y = target.vertices[:, 0], target.vertices[:, 1]
+    # z = x y / c holds the lines y = const, direction (1, 0, y/c), and x = const, (0, 1, x/c)
+    # (a doubly ruled surface, do Carmo 3-5); those are its asymptotic directions
+    r1 = np.column_stack([np.ones_like(x), np.zeros_like(x), y / C])
+    r2 = np.column_stack([np.zeros_like(x), np.ones_like(x), x / C])
+    r1 /= np.linalg.norm(r1, axis=1, keepdims=True)
+    r2 /= np.linalg.norm(r2, axis=1, keepdims=True)
+    i = cu.interior
+    a = cu.asymptotic[i]
+    c1 = np.abs(np.einsum("kad,kd->ka", a, r1[i])).max(axis=1)
+    c2 = np.abs(np.einsum("kad,kd->ka", a, r2[i])).max(axis=1)
+    assert np.minimum(c1, c2).min() > np.cos(np.radians(0.5))
+
+
+@pytest.mark.parametrize("radius", [400.0, 1000.0])
+def test_sphere_cap_curvatures(radius):
+    target, cu = _curv(*sphere_cap(radius, 0.3 * radius, 61))
+    i = cu.interior
+    # sphere of radius R: K = 1 / R^2, k1 = k2 = 1/R in magnitude (do Carmo 3-2)
+    assert np.abs(cu.gaussian[i] * radius**2 - 1).max() < 0.02
+    # normals toward the waste side (outward, up) and a crest: both negative by our sign rule
+    assert np.abs(cu.k1[i] * radius + 1).max() < 0.02
+    assert np.abs(cu.k2[i] * radius + 1).max() < 0.02
+    assert np.isnan(cu.asymptotic[i]).all()
+
+
+def test_icosphere_gaussian_curvature():
+    v, f = icosphere(1000.0, 5)
+    target, cu = _curv(v, f)
+    i = cu.interior
+    # K = 1 / R^2 (do Carmo 3-2)
+    assert np.abs(cu.gaussian[i] * 1e6 - 1).max() < 0.02
+
+
+@pytest.mark.parametrize("shape", ["cylinder", "cone"])
+def test_developable_shapes_have_zero_gaussian_curvature(shape):
+    if shape == "cylinder":
+        v, f = cylinder(300.0, 1000.0, 61, 41)
+    else:
+        v, f = cone(200.0, 400.0, 1000.0, 61, 41)
+    target, cu = _curv(v, f)
+    i = cu.interior
+    # cylinders and cones are developable: K = 0 (do Carmo 3-5); the grid quads between two
+    # rulings are planar, so the discrete defect vanishes up to round-off
+    assert np.abs(cu.gaussian[i]).max() < 1e-12
+    if shape == "cylinder":
+        # principal curvatures 0 along the rulings and -1/R across (crest seen from above)
+        assert np.abs(cu.k1[i]).max() < 1e-5
+        assert np.abs(cu.k2[i] * 300.0 + 1).max() < 0.02
+        assert np.abs(cu.dir1[i, 0]).min() > 0.999  # rulings run along x
+
+
+def _box():
+    m = trimesh.creation.box(extents=(300.0, 200.0, 100.0))
+    return np.asarray(m.vertices), np.asarray(m.faces)
+
+
+def _lumpy_sphere():
+    v, f = icosphere(500.0, 3)
+    rng = np.random.default_rng(42)
+    scale = 1.0 + 0.2 * rng.random(len(v))  # star-shaped, so still a genus-0 surface
+    return v * scale[:, None], f
+
+
+@pytest.mark.parametrize("build", [lambda: icosphere(700.0, 4), _box, _lumpy_sphere])
+def test_gauss_bonnet_total_defect(build):
+    v, f = build()
+    # sum of angle defects of a closed polyhedral surface = 2 pi chi = 4 pi for genus 0
+    # (Descartes' theorem on total angular defect; discrete Gauss-Bonnet)
+    assert angle_defects(v, f).sum() == pytest.approx(4 * np.pi, abs=1e-9)
+
+
+def test_mixed_areas_partition_the_surface():
+    v, f = _lumpy_sphere()
+    area = trimesh.Trimesh(v, f, process=False).area
+    # the mixed Voronoi cells tile the surface (Meyer et al. 2003, sec. 3.3)
+    assert mixed_areas(v, f).sum() == pytest.approx(area, rel=1e-12)

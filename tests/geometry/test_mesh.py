@@ -1,0 +1,172 @@
+"""Mesh intake: formats, cleaning counts, refusals, units, closed solids."""
+
+from __future__ import annotations
+
+import dataclasses
+import os
+
+import numpy as np
+import pytest
+import trimesh
+from shapes import icosphere, saddle
+
+from wirecut.config import MoldSide, Units, default_job
+from wirecut.errors import MeshError
+from wirecut.findings import Severity
+from wirecut.geometry.mesh import CLOSED_FACING_THRESHOLD, load_target, target_from_arrays
+
+JOB = default_job()
+
+
+def _saddle_mesh() -> trimesh.Trimesh:
+    v, f = saddle(c=2000.0, half=500.0, n=21)
+    return trimesh.Trimesh(v, f, process=False)
+
+
+@pytest.mark.parametrize("suffix", [".stl", ".obj", ".ply", ".off", ".glb"])
+def test_round_trip_each_format(tmp_path, suffix):
+    mesh = _saddle_mesh()
+    path = tmp_path / f"part{suffix}"
+    mesh.export(path)
+    target, _ = load_target(path, JOB)
+    # the file holds the same 21 x 21 grid: 441 vertices, 800 triangles (by construction)
+    assert len(target.vertices) == 441
+    assert len(target.faces) == 800
+    assert target.area_mm2 == pytest.approx(mesh.area, rel=1e-6)
+    assert not target.was_closed
+
+
+def test_ascii_stl_round_trip(tmp_path):
+    path = tmp_path / "ascii.stl"
+    path.write_text(trimesh.exchange.stl.export_stl_ascii(_saddle_mesh()))
+    target, findings = load_target(path, JOB)
+    # an STL stores 3 corners per facet: 2400 corners merge into the 441 grid vertices
+    assert target.merged_vertices == 2400 - 441
+    assert len(target.faces) == 800
+    assert any(f.code == "mesh-cleaned" and f.severity is Severity.INFO for f in findings)
+
+
+def test_duplicates_merged_and_degenerate_faces_dropped():
+    v = np.array([[0, 0, 0], [100, 0, 0], [100, 100, 0], [0, 100, 0]], float)
+    faces = [[0, 1, 2], [0, 2, 3]]
+    # a copy of vertex 2, a face with a repeated index, a collinear face, a duplicate face
+    v = np.vstack([v, [[100, 100, 0], [50, 0, 0]]])
+    faces += [[0, 4, 3], [0, 0, 1], [0, 5, 1], [2, 0, 1]]
+    target, findings = target_from_arrays(v, np.array(faces), JOB)
+    assert target.merged_vertices == 1  # vertex 4 equals vertex 2
+    # [0,4,3] becomes [0,2,3] (duplicate), [0,0,1] repeats, [0,5,1] collinear, [2,0,1] duplicate
+    assert target.dropped_faces == 4
+    assert len(target.faces) == 2
+    # unit square: area 100 x 100 mm^2 (by construction)
+    assert target.area_mm2 == pytest.approx(1e4)
+    assert "merged 1" in findings[0].message and "dropped 4" in findings[0].message
+
+
+@pytest.mark.parametrize(
+    "name, content, problem",
+    [
+        ("empty.stl", b"", "empty"),
+        ("text.stl", b"hello world, this is not a mesh\n" * 4, "mesh"),
+        ("garbage.stl", None, "unreadable"),
+        ("note.obj", b"just a note\n", "mesh"),
+        ("cut.stl", b"solid x\nfacet normal 0 0 1\nouter loop\nvertex 0 0 0\n", "mesh"),
+        ("lines.obj", b"v 0 0 0\nv 1 0 0\nv 1 1 0\nl 1 2 3\n", "point cloud"),
+        ("nan.obj", b"v 0 0 0\nv nan 0 0\nv 1 1 0\nf 1 2 3\n", "NaN"),
+        ("inf.obj", b"v 0 0 0\nv inf 0 0\nv 1 1 0\nf 1 2 3\n", "NaN or infinite"),
+        ("flat.obj", b"v 0 0 0\nv 1 0 0\nv 2 0 0\nf 1 2 3\n", "zero total area"),
+        ("shape.step", b"ISO-10303-21;", "suffix"),
+    ],
+)
+def test_refusals_name_the_file(tmp_path, name, content, problem):
+    path = tmp_path / name
+    path.write_bytes(os.urandom(600) if content is None else content)
+    with pytest.raises(MeshError) as err:
+        load_target(path, JOB)
+    msg = str(err.value)
+    assert name in msg and problem in msg and "\n" not in msg
+
+
+def test_truncated_binary_stl(tmp_path):
+    path = tmp_path / "half.stl"
+    _saddle_mesh().export(path)
+    data = path.read_bytes()
+    path.write_bytes(data[: len(data) // 2])
+    with pytest.raises(MeshError, match="half.stl"):
+        load_target(path, JOB)
+
+
+def test_point_cloud_ply(tmp_path):
+    path = tmp_path / "cloud.ply"
+    trimesh.PointCloud(np.random.default_rng(1).random((20, 3)) * 500).export(path)
+    with pytest.raises(MeshError, match="cloud.ply.*point cloud"):
+        load_target(path, JOB)
+
+
+def test_missing_and_folder(tmp_path):
+    with pytest.raises(MeshError, match="nothere.stl does not exist"):
+        load_target(tmp_path / "nothere.stl", JOB)
+    (tmp_path / "dir.stl").mkdir()
+    with pytest.raises(MeshError, match="dir.stl is a folder"):
+        load_target(tmp_path / "dir.stl", JOB)
+
+
+def test_no_faces_arrays():
+    with pytest.raises(MeshError, match="no faces"):
+        target_from_arrays(np.zeros((3, 3)), np.zeros((0, 3), int), JOB)
+
+
+def test_units_convert_and_warn(tmp_path):
+    v, f = saddle(c=2.0, half=0.5, n=11)  # the saddle written in metres: 1 m x 1 m
+    path = tmp_path / "metres.obj"
+    trimesh.Trimesh(v, f, process=False).export(path)
+    target, findings = load_target(path, JOB)
+    # 1 m written as 1 with no unit: the diagonal (~1.5 mm) is below 50 mm
+    warn = [f for f in findings if f.code == "suspicious-units"]
+    assert warn and warn[0].severity is Severity.ATTENTION and "--units m" in warn[0].message
+    target_m, findings_m = load_target(path, JOB, units=Units.M)
+    # 1 m = 1000 mm (SI definition)
+    assert np.allclose(target_m.vertices, target.vertices * 1000.0)
+    assert target_m.area_mm2 == pytest.approx(target.area_mm2 * 1e6, rel=1e-9)
+    assert not [f for f in findings_m if f.code == "suspicious-units"]
+    # 1 in = 25.4 mm (international inch, 1959)
+    target_in, _ = load_target(path, JOB, units=Units.IN)
+    assert np.ptp(target_in.vertices[:, 0]) == pytest.approx(25.4)
+
+
+def test_closed_solid_keeps_waste_facing_faces():
+    v, f = icosphere(500.0, 3)
+    target, _ = target_from_arrays(v, f, JOB)
+    assert target.was_closed
+    up = np.array([0.0, 0.0, 1.0])
+    assert (target.face_normals @ up > CLOSED_FACING_THRESHOLD).all()
+    # faces kept: those whose outward normal n has n_z > 0.1 (sphere: normal = position / R)
+    tri = v[f]
+    n = np.cross(tri[:, 1] - tri[:, 0], tri[:, 2] - tri[:, 0])
+    n /= np.linalg.norm(n, axis=1, keepdims=True)
+    assert len(target.faces) == int((n @ up > CLOSED_FACING_THRESHOLD).sum())
+    # counter-mold: the waste lies below, so the lower faces are kept
+    above = dataclasses.replace(JOB, mold=dataclasses.replace(JOB.mold, side=MoldSide.ABOVE))
+    lower, _ = target_from_arrays(v, f, above)
+    assert (lower.face_normals @ up < -CLOSED_FACING_THRESHOLD).all()
+
+
+def test_closed_solid_inside_out_is_turned_outward():
+    v, f = icosphere(500.0, 2)
+    target, _ = target_from_arrays(v, f[:, ::-1], JOB)
+    # only the upper half remains (equator vertices at z = 0 belong to upward faces)
+    assert target.vertices[:, 2].min() > -1e-9
+    assert (target.face_normals[:, 2] > CLOSED_FACING_THRESHOLD).all()
+
+
+def test_open_surface_flipped_toward_waste_and_made_consistent():
+    v, f = saddle(n=21)
+    rng = np.random.default_rng(7)
+    f = f.copy()
+    flip = rng.random(len(f)) < 0.5
+    f[flip] = f[flip][:, ::-1]  # a soup of randomly wound faces
+    target, _ = target_from_arrays(v, f, JOB)
+    # z = x y / c is a graph over the plan: every normal has n_z > 0 once oriented (by construction)
+    assert (target.face_normals[:, 2] > 0).all()
+    below = dataclasses.replace(JOB, mold=dataclasses.replace(JOB.mold, up=(0.0, 0.0, -1.0)))
+    down, _ = target_from_arrays(v, f, below)
+    assert (down.face_normals[:, 2] < 0).all()
