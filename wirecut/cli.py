@@ -262,19 +262,23 @@ def calibrate(
 
 def main(argv: list[str] | None = None) -> int:
     """Console-script entry point: never a traceback for bad input."""
-    import click
+    try:  # typer >= 0.2x vendors click; older releases depend on it
+        from typer._click import exceptions as click_exc
+    except ImportError:  # pragma: no cover - depends on the installed typer
+        from click import exceptions as click_exc
 
     try:
         rv = app(args=argv, standalone_mode=False, prog_name="wirecut")
         code = rv if isinstance(rv, int) else EXIT_OK
     except typer.Exit as exc:
         code = exc.exit_code
-    except click.exceptions.Exit as exc:
-        code = exc.exit_code
-    except click.exceptions.UsageError as exc:
+    except click_exc.UsageError as exc:
         _err(_one_line(exc.format_message()))
         code = EXIT_REFUSED
-    except click.exceptions.Abort:
+    except click_exc.ClickException as exc:
+        _err(_one_line(exc.format_message()))
+        code = EXIT_REFUSED
+    except typer.Abort:
         _err("interrupted; earlier output left as it was")
         code = 130
     except KeyboardInterrupt:

@@ -17,13 +17,23 @@ import numpy as np
 from wirecut.config import JobProfile
 from wirecut.findings import Finding, Severity
 
-__all__ = ["PiecePlan", "Plan", "make_plan", "write_plan", "plan_json"]
+__all__ = ["PiecePlan", "Plan", "make_plan", "write_plan", "plan_json", "replay_report"]
 
 Progress = Callable[[str, int, int], None]
 
 
 def _no_progress(stage: str, done: int, total: int) -> None:
     return None
+
+
+def replay_report(result, samples, tolerance_mm: float):
+    """The DeviationReport of a replayed program against the target samples."""
+    from wirecut.ruled.deviation import report_from_signed
+
+    signed = np.asarray(result.signed, float)
+    return report_from_signed(
+        signed, samples.weights, samples.undercut, ~np.isfinite(signed), tolerance_mm
+    )
 
 
 @dataclass(frozen=True)
@@ -58,7 +68,7 @@ class PiecePlan:
     def deviation(self):
         """The deviation report a user should believe: the replayed program, else the fit."""
         if self.prediction is not None:
-            return self.prediction.report
+            return replay_report(self.prediction, self.samples, self.piece.fit.report.tolerance_mm)
         return self.piece.fit.report
 
 
@@ -141,9 +151,9 @@ def make_plan(
         piece = replace(piece, stock=stock_of.get(piece.id, piece.stock))
         program, report, tf = build_program(piece, job)
         findings.extend(tf)
-        shift = getattr(report, "placement_shift_mm", None) if report is not None else None
-        if shift is not None and np.any(np.asarray(shift) != 0):
-            piece = _shifted(piece, np.asarray(shift, float))
+        shift = float(getattr(report, "shift_x_mm", 0.0) or 0.0) if report is not None else 0.0
+        if shift != 0.0:
+            piece = _shifted(piece, np.array([shift, 0.0, 0.0]))
         samples = sample_target(target, piece.part_to_machine, piece.region_plan)
         prediction = None
         text = None
@@ -220,6 +230,24 @@ def _f(x) -> float:
     return round(v, 6) if np.isfinite(v) else None
 
 
+def _toolpath_json(t) -> dict:
+    """The toolpath numbers of a piece for plan.json (kerf, dwell, overshoot, lag, path)."""
+    return {
+        "kerf_left_mm": [_f(v) for v in t.kerf_left_mm],
+        "kerf_right_mm": [_f(v) for v in t.kerf_right_mm],
+        "dwell_time_s": _f(t.dwell_time_s),
+        "corner_dwells": int(t.corner_dwells),
+        "overshoot_mm": _f(t.overshoot_mm),
+        "lag_at_cut_speed_mm": _f(t.lag_at_cut_speed_mm),
+        "moves": int(t.n_moves),
+        "path_length_left_mm": _f(t.path_length_left_mm),
+        "path_length_right_mm": _f(t.path_length_right_mm),
+        "speed_limited_moves": int(t.speed_limited_moves),
+        "kerf_iterations": int(t.iterations),
+        "shift_x_mm": _f(t.shift_x_mm),
+    }
+
+
 def plan_json(plan: Plan) -> dict:
     """plan.json as a dict, with every key of the interface contract."""
     job = plan.job
@@ -257,8 +285,8 @@ def plan_json(plan: Plan) -> dict:
             "fit_max_deviation_mm": _f(piece.fit.report.max_abs_mm),
             "machine_time_s": _f(pp.program.machine_time_s) if pp.program is not None else None,
         }
-        if pp.toolpath is not None and hasattr(pp.toolpath, "to_json"):
-            entry["toolpath"] = pp.toolpath.to_json()
+        if pp.toolpath is not None:
+            entry["toolpath"] = _toolpath_json(pp.toolpath)
         pieces.append(entry)
     alloc = plan.allocation
     foam = float(alloc.foam_volume_m3)

@@ -30,7 +30,7 @@ class SimulateResult:
         The program replayed.
     program : CutProgram
         The program as read back.
-    replay : ReplayResult or None
+    replay : DeviationReport or None
         Deviation of the replayed cut from the target, when a target was given.
     findings : tuple[Finding, ...]
         Out of tolerance, outside travel, ...
@@ -56,7 +56,7 @@ class SimulateResult:
             "findings": [f.to_json() for f in self.findings],
         }
         if self.replay is not None:
-            r = self.replay.report
+            r = self.replay
             out["deviation"] = {
                 "max_deviation_mm": round(float(r.max_abs_mm), 6),
                 "rms_deviation_mm": round(float(r.rms_mm), 6),
@@ -126,7 +126,7 @@ def run_simulate(
         if against is None or plan_path is None:
             raise JobError("--against needs --plan (and --piece), and --plan needs --against")
         replay_result = _against(program, job, against, piece_id or p.stem, plan_path, units)
-        r = replay_result.report
+        r = replay_result
         tol = job.tolerance.surface_mm
         if r.max_abs_mm > tol:
             findings.append(
@@ -159,12 +159,6 @@ def _against(program, job, mesh: Path, piece_id: str, plan_path: Path, units):
     target, _ = load_target(mesh, job, units)
     samples = sample_target(target, m, region)
 
-    class _PieceView:
-        """The parts of a piece the replay may use: id and block (never the planned cut)."""
+    from wirecut.plan import replay_report
 
-        def __init__(self) -> None:
-            self.id = piece_id
-            self.block = block
-            self.part_to_machine = m
-
-    return replay(program, _PieceView(), job, samples)
+    return replay_report(replay(program, block, job, samples), samples, job.tolerance.surface_mm)
