@@ -44,6 +44,12 @@ def check_output_dir(target: str | Path) -> Path:
         raise OutputError(f"output path {out} lies under {probe}, which is a file")
     if not os.access(probe, os.W_OK | os.X_OK):
         raise OutputError(f"output folder {out} cannot be written (no permission on {probe})")
+    try:  # a real probe: permissions alone do not tell (read-only mounts, /proc, root)
+        os.rmdir(tempfile.mkdtemp(prefix=f".{out.name}.probe-", dir=probe))
+    except OSError as exc:
+        raise OutputError(
+            f"output folder {out} cannot be written ({exc.strerror} in {probe})"
+        ) from None
     return out
 
 
