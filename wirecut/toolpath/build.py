@@ -172,8 +172,9 @@ def _assemble(off_l, off_r, block, job, overshoot_mm):
     return path(off_l), path(off_r), y_top
 
 
-def _in_foam(points: np.ndarray, block) -> np.ndarray:
-    eps = 1e-6
+def _in_foam(points: np.ndarray, block, reach_mm: float) -> np.ndarray:
+    """Vertices (k,) bool within ``reach_mm`` of the block: the bowed wire may still be in foam."""
+    eps = 1e-6 + reach_mm
     return (
         (points[:, 0] >= block.x_mm[0] - eps)
         & (points[:, 0] <= block.x_mm[1] + eps)
@@ -250,7 +251,7 @@ def build_program(
         pts_l, pts_r, y_top = _assemble(off_l, off_r, block, job, overshoot)
         towers = tower_positions(pts_l, pts_r, z_l, z_r, machine.span_mm)
         mid = (1 - t_mid) * pts_l + t_mid * pts_r
-        foam = _in_foam(mid, block)
+        foam = _in_foam(mid, block, lag_cut + float(kl.max()))
         caps = plan_lag(
             mid, np.ones(len(mid) - 1), foam, gain, allowed, wire.lag_relax_s
         ).speed_cap_mm_s

@@ -46,6 +46,7 @@ __all__ = [
 ]
 
 _MIN_SPEED_MM_S = 1e-6
+_PARALLEL_SIN = 0.02
 _MIN_COS = 0.05  # leaner than ~87 degrees the offset is not meaningful; clamp
 
 
@@ -152,7 +153,10 @@ def offset_polyline(
     da, db = dl[:-1], dl[1:]
     # x . na = da and x . nb = db (both shifted lines through the vertex): 2x2 solve by Cramer
     det = na[:, 0] * nb[:, 1] - na[:, 1] * nb[:, 0]
-    parallel = np.abs(det) < 1e-9
+    # below ~1 degree of turn the intersection of two shifted lines is ill-conditioned (it slides
+    # along the lines by (delta_a - delta_b) / sin(turn)): take the mean shift there instead,
+    # whose error across the path is at most |delta_a - delta_b| / 2
+    parallel = np.abs(det) < _PARALLEL_SIN
     safe = np.where(parallel, 1.0, det)
     x = np.column_stack(
         [(da * nb[:, 1] - db * na[:, 1]) / safe, (na[:, 0] * db - nb[:, 0] * da) / safe]

@@ -25,8 +25,10 @@ Compensation, all against a share of the surface tolerance (``allowed_mm``):
   corner K is l sin(a / 2). Where that exceeds ``allowed_mm`` the towers dwell at the corner
   until the bow has decayed, t = tau ln(l sin(a/2) / allowed).
 - curve: on a path of radius rho the steady trailing point lies on the tangent, a distance
-  sqrt(rho^2 + l^2) - rho ~ l^2 / (2 rho) off the path; the speed is capped so this stays
-  within ``allowed_mm``: v <= sqrt(2 rho allowed) / g with g = lag per unit speed.
+  sqrt(rho^2 + l^2) - rho ~ l^2 / (2 rho) off the path; with the bow relaxing at tau its
+  direction also trails the path's by v tau / rho, adding l v tau / rho toward the inside.
+  With l = g v (g = lag per unit speed) the speed is capped so that
+  v^2 (g^2 / 2 + g tau) / rho <= ``allowed_mm``.
 - exit: the sweep continues past the block by at least the lag so the bowed middle leaves the
   foam before the wire rises.
 """
@@ -262,9 +264,11 @@ def plan_lag(
     dwell = np.where(corner, dwell_time_s(err, allowed_mm, relax_s), 0.0)
     rho = circumradius(p)
     rho = np.where(corner | ~foam, np.inf, rho)
+    # steady trailing point l^2 / (2 rho) plus the first-order phase lag of the bow, l v tau / rho
+    # (the bow's direction trails the path's by omega tau = v tau / rho): with l = g v the error
+    # is v^2 (g^2 / 2 + g tau) / rho
+    coeff = 0.5 * gain_s * gain_s + gain_s * relax_s
     with np.errstate(divide="ignore"):
-        v_vertex = np.where(
-            gain_s > 0, np.sqrt(2.0 * rho * allowed_mm) / max(gain_s, 1e-300), np.inf
-        )
+        v_vertex = np.where(coeff > 0, np.sqrt(rho * allowed_mm / max(coeff, 1e-300)), np.inf)
     cap = np.minimum(v_vertex[:-1], v_vertex[1:]) if k >= 2 else np.zeros(0)
     return LagPlan(turn, corner, dwell, cap, err)

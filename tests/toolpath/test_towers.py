@@ -1,0 +1,102 @@
+"""Tower positions by similar triangles, and the travel limits (re-place or refuse)."""
+
+from __future__ import annotations
+
+import dataclasses
+
+import numpy as np
+import pytest
+from toolpath_shapes import make_piece, mesa
+
+from wirecut.config import default_job
+from wirecut.findings import Severity
+from wirecut.toolpath.build import build_program
+from wirecut.toolpath.program import Op
+from wirecut.toolpath.towers import face_points, tower_positions, travel_check
+
+JOB = default_job()
+NO_KERF_NO_LAG = dataclasses.replace(
+    JOB,
+    wire=dataclasses.replace(
+        JOB.wire, kerf_base_mm=0.0, kerf_speed_coeff_mm2_s=0.0, lag_ref_mm=0.0
+    ),
+)
+SPAN = JOB.machine.span_mm  # 1600 mm
+
+# tapered prism: the top outline of a 600 x 200 rectangle at the left face (z = 300) lofted to
+# a 400 x 150 one at the right face (z = 1300)
+LEFT = np.array([[200.0, 50.0], [200.0, 250.0], [800.0, 250.0], [800.0, 50.0]])
+RIGHT = np.array([[300.0, 50.0], [300.0, 200.0], [700.0, 200.0], [700.0, 50.0]])
+
+# similar triangles: a point at plane z on the line through (xL, zL) and (xR, zR) is
+# xL + (xR - xL) (z - zL) / (zR - zL); here (0 - 300) / 1000 = -0.3 and (1600 - 300) / 1000 = 1.3
+HAND_TOWERS = [
+    # (X, Y, U, V) by hand (standard similar triangles)
+    (200 - 0.3 * 100, 50.0, 200 + 1.3 * 100, 50.0),  # (170, 50, 330, 50)
+    (200 - 0.3 * 100, 250 + 0.3 * 50, 200 + 1.3 * 100, 250 - 1.3 * 50),  # (170, 265, 330, 185)
+    (800 + 0.3 * 100, 250 + 0.3 * 50, 800 - 1.3 * 100, 250 - 1.3 * 50),  # (830, 265, 670, 185)
+    (800 + 0.3 * 100, 50.0, 800 - 1.3 * 100, 50.0),  # (830, 50, 670, 50)
+]
+
+
+def test_tower_positions_match_similar_triangles():
+    got = tower_positions(LEFT, RIGHT, 300.0, 1300.0, SPAN)
+    np.testing.assert_allclose(got, np.array(HAND_TOWERS), atol=1e-9)
+    # and back: the line through the towers crosses the faces at the profiles
+    np.testing.assert_allclose(face_points(got, 300.0, SPAN), LEFT, atol=1e-9)
+    np.testing.assert_allclose(face_points(got, 1300.0, SPAN), RIGHT, atol=1e-9)
+
+
+def test_program_of_tapered_prism_passes_through_hand_towers():
+    piece = make_piece(LEFT, RIGHT, (200.0, 800.0), (0.0, 300.0), (300.0, 1300.0))
+    program, report, findings = build_program(piece, NO_KERF_NO_LAG)
+    assert program is not None and findings == []
+    feeds = program.towers[program.ops == Op.FEED]
+    for row in HAND_TOWERS:  # each corner ruling is a programmed position (similar triangles)
+        assert np.min(np.abs(feeds - np.array(row)).max(axis=1)) < 1e-9
+    # without kerf the wire's face crossings are the profiles themselves
+    np.testing.assert_allclose(report.left_offset, report.left_profile, atol=1e-12)
+
+
+def test_shift_into_travel_is_reported():
+    prof = mesa(10.0, 400.0, 80.0, 60.0, 100.0)
+    piece = make_piece(prof, prof, (10.0, 400.0), (0.0, 200.0), (300.0, 1300.0))
+    program, report, findings = build_program(piece, JOB)
+    assert program is not None
+    # approach at x = 10 - home_clearance (30) = -20: travel starts at 0, so shift +20 mm
+    assert report.shift_x_mm == pytest.approx(20.0)  # 0 - (10 - 30) (by hand)
+    assert [f.code for f in findings] == ["re-placed-in-travel"]
+    assert findings[0].severity is Severity.INFO
+    t = program.positions()
+    assert t[:, [0, 2]].min() >= JOB.machine.travel_x_mm[0] - 1e-9
+    assert np.isclose(t[:, [0, 2]].min(), 0.0)
+
+
+@pytest.mark.parametrize(
+    ("x_mm", "top", "axis", "over"),
+    [
+        # top 790 + clearance 30 = 820 > travel 800: 20 mm over on Y (by hand)
+        ((200.0, 800.0), 790.0, "Y", 20.0),
+        # a block as wide as the travel cannot take the approach and the overshoot
+        ((0.0, 1200.0), 300.0, "X", None),
+    ],
+)
+def test_outside_travel_refused(x_mm, top, axis, over):
+    prof = mesa(x_mm[0], x_mm[1], 80.0, 60.0, 100.0)
+    piece = make_piece(prof, prof, x_mm, (0.0, top), (300.0, 1300.0))
+    program, _report, findings = build_program(piece, JOB)
+    assert program is None
+    f = [f for f in findings if f.code == "outside-travel"]
+    assert len(f) == 1 and f[0].severity is Severity.ATTENTION and f[0].piece == "P01"
+    assert f"axis {axis}" in f[0].message
+    if over is not None:
+        assert f"{over:.1f} mm" in f[0].message
+
+
+def test_travel_check_unit():
+    m = JOB.machine
+    ok = travel_check(np.array([[10.0, 10.0, 20.0, 20.0]]), m)
+    assert ok.ok and ok.shift_x_mm == 0.0
+    right = travel_check(np.array([[1190.0, 10.0, 1210.0, 20.0]]), m)
+    assert right.fixable and right.shift_x_mm == pytest.approx(-10.0)  # 1200 - 1210 (by hand)
+    assert right.axis == "U" and right.overshoot_mm == pytest.approx(10.0)
