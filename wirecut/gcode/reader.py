@@ -30,9 +30,9 @@ import re
 
 import numpy as np
 
-from wirecut.config import Dialect, JobProfile
+from wirecut.config import Dialect, FeedRule, JobProfile
 from wirecut.errors import GcodeError
-from wirecut.gcode.dialects import DialectSpec, dialect_spec, feed_distance_mm
+from wirecut.gcode.dialects import DialectSpec, dialect_spec
 from wirecut.toolpath.program import CutProgram, Op
 
 __all__ = ["read_gcode", "detect_dialect"]
@@ -42,6 +42,7 @@ INCH_MM = 25.4  # 1 in = 25.4 mm exactly (international yard and pound agreement
 _WORD = re.compile(r"([A-Z])([+-]?(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+))")
 _BLOCK = re.compile(r"(?:[A-Z][+-]?(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+))*")
 _SPACE = re.compile(r"[ \t]+")
+_SPECIAL = re.compile(r"[();]")
 _COMMENTS = re.compile(r"\([^()\n]*\)|;[^\n]*")
 _G93 = re.compile(r"G0*93(?![0-9.])")
 _G94 = re.compile(r"G0*94(?![0-9.])")
@@ -87,29 +88,31 @@ def detect_dialect(text: str, job: JobProfile) -> Dialect:
 
 def _strip_comments(line: str) -> tuple[str, list[str]]:
     """Code of one line with comments removed, and the comments' texts."""
+    special = _SPECIAL.search(line)
+    if special is None:
+        return line, []
     code: list[str] = []
     comments: list[str] = []
     i = 0
-    n = len(line)
-    while i < n:
-        ch = line[i]
-        if ch == "(":
-            j = line.find(")", i + 1)
-            if j < 0:
-                raise _Fail("comment '(' is not closed on its line")
-            inner = line[i + 1 : j]
-            if "(" in inner:
-                raise _Fail("nested comment: '(' inside a comment")
-            comments.append(inner)
-            i = j + 1
-        elif ch == ")":
+    while special is not None:
+        j = special.start()
+        code.append(line[i:j])
+        ch = line[j]
+        if ch == ";":
+            comments.append(line[j + 1 :])
+            return "".join(code), comments
+        if ch == ")":
             raise _Fail("')' without an opening '('")
-        elif ch == ";":
-            comments.append(line[i + 1 :])
-            break
-        else:
-            code.append(ch)
-            i += 1
+        end = line.find(")", j + 1)
+        if end < 0:
+            raise _Fail("comment '(' is not closed on its line")
+        inner = line[j + 1 : end]
+        if "(" in inner:
+            raise _Fail("nested comment: '(' inside a comment")
+        comments.append(inner)
+        i = end + 1
+        special = _SPECIAL.search(line, i)
+    code.append(line[i:])
     return "".join(code), comments
 
 
@@ -140,11 +143,11 @@ class _Reader:
         self.feed = 0.0  # modal F of G94, mm/min
         self.power = 0.0
         self.first_power: float | None = None
-        self.position = np.zeros(4)
-        self.start: np.ndarray | None = None
+        self.position = [0.0, 0.0, 0.0, 0.0]
+        self.start: list[float] | None = None
         self.moved = False
         self.ops: list[int] = []
-        self.towers: list[np.ndarray] = []
+        self.towers: list[tuple[float, ...]] = []
         self.durations: list[float] = []
         self.header: list[tuple[str, str]] = []
         self.ended = False
@@ -152,7 +155,7 @@ class _Reader:
 
     def emit(self, op: Op, seconds: float = 0.0) -> None:
         self.ops.append(int(op))
-        self.towers.append(self.position.copy())
+        self.towers.append(tuple(self.position))
         self.durations.append(seconds)
 
     def line(self, raw: str) -> None:
@@ -262,17 +265,17 @@ class _Reader:
             self.ended = True
 
     def _move(self, words: dict[str, float], axis_words: list[str]) -> None:
-        target = self.position.copy()
+        target = list(self.position)
         for a in axis_words:
             i = self.axis_index[a]
             value = words[a] * self.units
             target[i] = value if self.absolute else target[i] + value
-        if not np.all(np.isfinite(target)):
+        if not all(math.isfinite(v) for v in target):
             raise _Fail("position is too large")
         if self.motion == 0:
             self.position = target
             if not self.moved and self.start is None:
-                self.start = target.copy()
+                self.start = list(target)
             else:
                 self.emit(Op.RAPID)
             self.moved = True
@@ -286,9 +289,12 @@ class _Reader:
         else:
             if self.feed <= 0.0:
                 raise _Fail("G1 with no feed rate F in effect")
-            distance = float(
-                feed_distance_mm((target - self.position)[None, :], self.spec.feed_rule)[0]
-            )
+            d = [t - p for t, p in zip(target, self.position, strict=True)]
+            # the scalar form of wirecut.gcode.dialects.feed_distance_mm
+            if self.spec.feed_rule is FeedRule.ALL_AXES:
+                distance = math.sqrt(d[0] ** 2 + d[1] ** 2 + d[2] ** 2 + d[3] ** 2)
+            else:
+                distance = math.hypot(d[0], d[1]) or math.hypot(d[2], d[3])
             seconds = 60.0 * distance / self.feed
         if not math.isfinite(seconds):
             raise _Fail("move duration is not finite")
@@ -348,7 +354,7 @@ def read_gcode(
         ops=np.asarray(reader.ops, dtype=np.int64),
         towers=np.asarray(reader.towers, float).reshape(n, 4),
         duration_s=np.asarray(reader.durations, float),
-        start=reader.start if reader.start is not None else np.zeros(4),
+        start=np.asarray(reader.start if reader.start is not None else np.zeros(4), float),
         heat_power=float(power),
         header=tuple(reader.header),
     )

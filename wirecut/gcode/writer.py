@@ -89,16 +89,17 @@ def normalize_program(program: CutProgram, job: JobProfile) -> CutProgram:
         raise JobError(f"piece {pid}: program has a position that is not a finite number")
     if not np.all(np.isfinite(durations)):
         raise JobError(f"piece {pid}: program has a duration that is not a finite number")
-    rounded = round_positions(towers)
-    current = round_positions(start)
+    rounded = round_positions(towers).tolist()
+    current = round_positions(start).tolist()
+    seconds_given = durations.tolist()
     speed = float(job.machine.max_axis_speed_mm_s)
     ops: list[int] = []
-    pos: list[np.ndarray] = []
+    pos: list[list[float]] = []
     dur: list[float] = []
     heat_on = False
     heat_used = False
 
-    def emit(op: Op, where: np.ndarray, seconds: float) -> None:
+    def emit(op: Op, where: list[float], seconds: float) -> None:
         ops.append(int(op))
         pos.append(where)
         dur.append(seconds)
@@ -106,26 +107,25 @@ def normalize_program(program: CutProgram, job: JobProfile) -> CutProgram:
     for i, op in enumerate(program.ops.tolist()):
         target = rounded[i]
         if op == Op.RAPID:
-            if np.any(target != current):
+            if target != current:
                 emit(Op.RAPID, target, 0.0)
                 current = target
         elif op == Op.FEED:
-            seconds = float(durations[i])
-            moved = np.any(target != current)
-            if not moved:
+            seconds = seconds_given[i]
+            if target == current:
                 if seconds > 0.0:
                     emit(Op.DWELL, current, seconds)
                 continue
             if seconds <= 0.0:
-                seconds = float(np.max(np.abs(target - current))) / speed
+                seconds = max(abs(t - c) for t, c in zip(target, current, strict=True)) / speed
             if not heat_on and not heat_used:
                 emit(Op.HEAT_ON, current, 0.0)
                 heat_on = heat_used = True
             emit(Op.FEED, target, seconds)
             current = target
         elif op == Op.DWELL:
-            if durations[i] > 0.0:
-                emit(Op.DWELL, current, float(durations[i]))
+            if seconds_given[i] > 0.0:
+                emit(Op.DWELL, current, seconds_given[i])
         elif op == Op.HEAT_ON:
             if not heat_on:
                 emit(Op.HEAT_ON, current, 0.0)
@@ -182,10 +182,11 @@ def check_travel(program: CutProgram, job: JobProfile) -> None:
     )
 
 
-def _motion(word: str, spec: DialectSpec, where: np.ndarray) -> str:
-    return " ".join(
-        [word]
-        + [f"{a}{format_position(v)}" for a, v in zip(spec.axes, where.tolist(), strict=True)]
+def _motion(word: str, spec: DialectSpec, where: list[float]) -> str:
+    a = spec.axes
+    return (
+        f"{word} {a[0]}{format_position(where[0])} {a[1]}{format_position(where[1])} "
+        f"{a[2]}{format_position(where[2])} {a[3]}{format_position(where[3])}"
     )
 
 
@@ -262,14 +263,17 @@ def write_gcode(program: CutProgram, job: JobProfile) -> str:
 
     lines = _header(prog, job, spec)
     lines += list(spec.preamble)
-    lines.append(_motion("G0", spec, prog.start))
+    lines.append(_motion("G0", spec, prog.start.tolist()))
+    rows = towers.tolist()
+    f_list = f_values.tolist()
+    seconds = prog.duration_s.tolist()
     for i, op in enumerate(ops.tolist()):
         if op == Op.FEED:
-            lines.append(_motion("G1", spec, towers[i]) + f" F{format_significant(f_values[i])}")
+            lines.append(_motion("G1", spec, rows[i]) + f" F{format_significant(f_list[i])}")
         elif op == Op.RAPID:
-            lines.append(_motion("G0", spec, towers[i]))
+            lines.append(_motion("G0", spec, rows[i]))
         elif op == Op.DWELL:
-            lines.append(f"G4 P{format_significant(prog.duration_s[i])}")
+            lines.append(f"G4 P{format_significant(seconds[i])}")
         elif op == Op.HEAT_ON:
             lines.append(f"M3 S{power}")
         else:
