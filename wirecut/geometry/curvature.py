@@ -11,14 +11,17 @@ Gaussian curvature
     the boundary keep their value: their star is complete, so the defect is exact there.
 
 Principal curvatures and directions
-    A quadric ``h(u, v) = a u^2 + b u v + c v^2 + d u + e v`` fitted by least squares to the
-    vertex's 2-ring in the tangent frame of its area-weighted normal (the linear terms absorb a
-    tilted normal). The shape operator of the graph ``(u, v, h)`` at the origin,
+    A height function ``h(u, v) = a u^2 + b u v + c v^2 + d u + e v`` plus the four cubic terms
+    (the cubic-order fit of Goldfeather and Interrante 2004, ACM TOG 23(1), which keeps the
+    quadratic part unbiased where the neighbourhood is lopsided, as near a boundary), fitted by
+    least squares to the vertex's 2-ring (at most 32 neighbours) in the tangent frame of its
+    area-weighted normal; the linear terms absorb a tilted normal. Vertices with fewer than 12
+    neighbours drop the cubic terms. The shape operator of the graph ``(u, v, h)`` at the origin,
     ``S = I^-1 II`` with ``I = [[1+d^2, de], [de, 1+e^2]]`` and
     ``II = [[2a, b], [b, 2c]] / sqrt(1+d^2+e^2)`` (do Carmo, sec. 3-3, graph of a function), gives
     ``k1 >= k2``, the mean curvature ``(k1 + k2) / 2`` and the principal directions. Sign: a normal
     curvature is positive where the surface bends toward the waste-side normal (a valley seen from
-    the waste side), negative on a crest. All vertices are fitted in one batch of 5x5 normal
+    the waste side), negative on a crest. All vertices are fitted in one batch of 9x9 normal
     equations, in chunks to bound memory.
 
 Asymptotic directions

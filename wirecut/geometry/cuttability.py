@@ -23,13 +23,15 @@ Wire reach (per vertex, mm)
     both directions, in steps ``h = extent / 128``, taking the signed distance of
     each line point from the surface (nearest vertex, its tangent plane plus the second-order term
     ``(k1 (t.dir1)^2 + k2 (t.dir2)^2) / 2`` of its fitted quadric) and stopping where the line
-    leaves the surface (lateral offset from the nearest vertex over twice the mean edge). The reach
+    leaves the surface (lateral offset from the nearest vertex over twice the mean edge, or past
+    the outward side of a boundary vertex). The reach
     is the longest window of samples through the vertex whose range of distances is at most ``s``
     (the line may shift along the normal but is not tilted: conservative for lopsided windows).
     Marching runs on at most 2000 interior vertices chosen deterministically (the lowest-index
-    candidate per cell of a plan grid); the others (boundary vertices included) take the reach of the nearest marched vertex and their own
-    direction most parallel to its direction. Every reach is capped at the surface's extent (the
-    diagonal of its bounding box).
+    candidate per cell of a plan grid); the others (boundary vertices included) take the reach of
+    the nearest marched vertex and their own direction most parallel to its direction.
+    Developable points march along their least-curved principal direction only (the ruling).
+    Every reach is capped at the surface's extent (the diagonal of its bounding box).
 
 Undercut (per vertex)
     The area-weighted normal looks away from the waste direction ``w`` (``n . w <= 0``), or the
