@@ -17,6 +17,7 @@ from gcode_programs import job_for, programs, random_program, rectangle_program,
 from hypothesis import given, settings
 
 from wirecut.config import Dialect, FeedRule
+from wirecut.gcode.reader import read_gcode
 from wirecut.gcode.writer import normalize_program, write_gcode
 from wirecut.toolpath.program import CutProgram, Op
 
@@ -194,3 +195,48 @@ def test_any_writable_program_parses_and_agrees(program, interpreter, tmp_path_f
     assert [m["kind"] for m in result["moves"]] == kinds
     got = np.array([m["xyzabcuvw_mm"] for m in result["moves"]]).reshape(-1, 9)
     np.testing.assert_allclose(got[:, XYUV_COLUMNS], towers, atol=POS_TOL_MM)
+
+
+HAND_WRITTEN = {
+    "inches-incremental-inverse-time": """(piece: H1)
+N10 G20 G90 G17 G93
+N20 G0 X1 Y2 U1.5 V2 (start)
+N30 M3 S40
+N40 G91 G1 X0.5 Y-0.25 U0.25 V0 F12
+N50 X0 Y1 U0 V0.5 F3 ; only Y and V
+N60 G90 G1 X 2 Y 3 U 1 V 1 F 0.5
+N70 G4 P0.75
+N80 G21 G1 X10 Y10 U10 V10 F2
+M5
+M2
+""",
+    "units-per-minute-modal": """G21 G94 G90
+G0 X5 Y5 U5 V5
+M3 S10
+G1 X30 F600
+Y40
+U30 V40 F300
+G91 X-10 Y-10 U-10 V-10
+M5
+M30
+""",
+}
+
+
+@pytest.mark.parametrize("name", sorted(HAND_WRITTEN))
+def test_reader_agrees_with_the_interpreter_on_hand_written_text(name, interpreter, tmp_path):
+    # the same text through both readers: modes G20/G21, G90/G91, modal G1, comments,
+    # line numbers and spaces must give the same positions and dwells
+    text = HAND_WRITTEN[name]
+    job = job_for(Dialect.FOUR_AXIS_UNITS_PER_MINUTE, FeedRule.ALL_AXES, ("X", "Y", "U", "V"))
+    ours = read_gcode(text, job)
+    result = interpreter(text, tmp_path)
+    _check_parse(result)
+    motion = (ours.ops == Op.RAPID) | (ours.ops == Op.FEED)
+    expected = np.vstack([ours.start[None, :], ours.towers[motion]])
+    got = np.array([m["xyzabcuvw_mm"] for m in result["moves"]])
+    np.testing.assert_allclose(got[:, XYUV_COLUMNS], expected, atol=1e-9)
+    kinds = ["traverse"] + ["traverse" if o == Op.RAPID else "feed" for o in ours.ops[motion]]
+    assert [m["kind"] for m in result["moves"]] == kinds
+    dwells = ours.duration_s[ours.ops == Op.DWELL]
+    np.testing.assert_allclose([d["seconds"] for d in result["dwells"]], dwells)

@@ -19,7 +19,8 @@ UPM_ALL = job_for(Dialect.FOUR_AXIS_UNITS_PER_MINUTE, FeedRule.ALL_AXES)
 def test_inverse_time_durations_modal_motion_comments_and_line_numbers():
     text = """%
 (piece: T1) ; a header comment
-N10 G21 G90 G17 G61 G93
+N10 G21 G90 G17 G64 P0.01 Q0.01 G93
+N15 G61
 N20 G0 X10 Y20 U10 V20
 N30 M3 S45
 N40 G1 X 3 0 Y20 U40 V25 F6 (one sixth of a minute)
@@ -73,7 +74,8 @@ def test_detect_dialect_from_feed_mode_words():
         ("G3 X1\n", 1, "arc G3"),
         ("G1 X1.2.3 F1\n", 1, "malformed"),
         ("G1 X- F1\n", 1, "malformed"),
-        ("G1 Q1\n", 1, "unknown word Q1"),
+        ("G1 Q1\n", 1, "Q word without G64"),
+        ("G1 K1\n", 1, "unknown word K1"),
         ("G93\nG1 Z1 F1\n", 2, "unknown word Z1"),
         ("G0 X1 (unclosed\n", 1, "not closed"),
         ("G0 X1 (a (b) c)\n", 1, "nested"),
@@ -92,6 +94,7 @@ def test_detect_dialect_from_feed_mode_words():
         ("G0 X" + "9" * 400 + "\n", 1, "too large"),
         ("G1 X1 F-2\n", 1, "negative feed"),
         ("P2\n", 1, "P word without G4"),
+        ("G61 P2\n", 1, "P word without G4"),
     ],
 )
 def test_refusals_name_the_line(text, line, needle):

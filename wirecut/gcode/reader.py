@@ -192,7 +192,7 @@ class _Reader:
                 continue
             elif letter in words:
                 raise _Fail(f"word {letter} appears twice")
-            elif letter in self.axis_index or letter in "FSP":
+            elif letter in self.axis_index or letter in "FSPQ":
                 words[letter] = value
             elif not unknown:
                 unknown = letter + text
@@ -219,8 +219,11 @@ class _Reader:
                 raise _Fail(f"M{m_groups[group]} and M{code} are in the same modal group")
             m_groups[group] = code
         dwell = groups.get("non-modal") == 4
-        if "P" in words and not dwell and "path control" not in groups:
-            raise _Fail("P word without G4")
+        blending = groups.get("path control") == 64
+        if "P" in words and not dwell and not blending:
+            raise _Fail("P word without G4 or G64")
+        if "Q" in words and not blending and "Q" not in self.axis_index:
+            raise _Fail("Q word without G64")
         # RS274/NGC order of execution (NIST IR 6556 table 8)
         if "feed mode" in groups:
             self.inverse_time = groups["feed mode"] == 93
