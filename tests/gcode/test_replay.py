@@ -34,7 +34,7 @@ def _wire(**kw):
 def _profile_samples(prof: np.ndarray, zs: np.ndarray) -> TargetArrays:
     """Samples inside the segments of a prism's profile, normals to the left (waste side)."""
     pts, nrm = [], []
-    for a, b in zip(prof[:-1], prof[1:]):
+    for a, b in zip(prof[:-1], prof[1:], strict=True):
         t = (b - a) / np.linalg.norm(b - a)
         for s in np.linspace(0.05, 0.95, 10):
             q = a + s * (b - a)

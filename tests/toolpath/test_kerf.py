@@ -33,7 +33,7 @@ def test_offset_of_a_step_is_exact():
     # every offset segment runs exactly 0.5 from the original polyline (shapely distance);
     # the convex mitre vertex itself is 0.5 * sqrt(2) from the corner (mitre geometry)
     line = LineString(step)
-    for a, b in zip(off[:-1], off[1:]):
+    for a, b in zip(off[:-1], off[1:], strict=True):
         for s in (0.1, 0.5, 0.9):
             assert line.distance(Point(a + s * (b - a))) == pytest.approx(0.5, abs=1e-12)
     assert line.distance(Point(off[2])) == pytest.approx(0.5 * math.sqrt(2.0))

@@ -253,7 +253,7 @@ def build_program(
         mid = (1 - t_mid) * pts_l + t_mid * pts_r
         foam = _in_foam(mid, block, lag_cut + float(kl.max()))
         caps = plan_lag(
-            mid, np.ones(len(mid) - 1), foam, gain, allowed, wire.lag_relax_s
+            mid, np.full(len(mid) - 1, wire.cut_speed_mm_s), foam, gain, allowed, wire.lag_relax_s
         ).speed_cap_mm_s
         timing = time_moves(
             pts_l, pts_r, towers, wire.cut_speed_mm_s, machine.max_axis_speed_mm_s, caps
