@@ -124,7 +124,7 @@ def make_plan(
     from dataclasses import replace
 
     from wirecut.gcode.replay import replay
-    from wirecut.gcode.writer import write_gcode
+    from wirecut.gcode.writer import normalize_program, write_gcode
     from wirecut.geometry.cuttability import analyse_surface
     from wirecut.pieces.split import split_pieces
     from wirecut.pieces.stock import allocate
@@ -158,6 +158,7 @@ def make_plan(
         prediction = None
         text = None
         if program is not None:
+            program = normalize_program(program, job)  # exactly what the file will say
             prediction = replay(program, piece, job, samples)
             text = write_gcode(program, job)
         plans.append(PiecePlan(piece, program, report, prediction, samples, text))
