@@ -70,6 +70,7 @@ DEVELOPABLE, RULED, SYNCLASTIC = 0, 1, 2
 MAX_MARCHED = 2000
 _STEPS = 128  # samples per side of a marched line at most
 _BATCH = 128  # marched lines per vectorized batch
+_BLOCK = 16  # samples per line marched before checking which lines go on
 
 
 @dataclass(frozen=True, eq=False)
@@ -323,30 +324,28 @@ class _SurfaceProbe:
 
     def __init__(self, target: TargetSurface, cu: Curvature) -> None:
         self.v = target.vertices
-        self.cu = cu
         self.tree = cKDTree(self.v)
         self.edge = target.mean_edge_mm
         self.off = 2.0 * self.edge
         self.reach = 3.0 * self.edge + 1e-9
-        self.outward = _outward_boundary_directions(target)
+        # per vertex: normal, dir1, dir2 (orthonormal) and the outward boundary tangent
+        self.axes = np.stack(
+            [cu.normals, cu.dir1, cu.dir2, _outward_boundary_directions(target)], axis=1
+        )
+        self.k = np.column_stack([cu.k1, cu.k2])
 
     def __call__(self, q: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """Distances (k,) mm (+ toward the waste) and on-surface flags (k,) of points (k, 3)."""
         dist, j = self.tree.query(q, distance_upper_bound=self.reach)
         hit = np.isfinite(dist)
         j = np.where(hit, j, 0)
-        d = q - self.v[j]
-        n = self.cu.normals[j]
-        h = np.einsum("ij,ij->i", d, n)
-        t = d - h[:, None] * n
-        a = np.einsum("ij,ij->i", t, self.cu.dir1[j])
-        b = np.einsum("ij,ij->i", t, self.cu.dir2[j])
-        surf = 0.5 * (self.cu.k1[j] * a * a + self.cu.k2[j] * b * b)
-        lateral = np.linalg.norm(t, axis=1)
-        on = hit & (lateral <= self.off)
-        # beyond the boundary: nearest vertex on the boundary and the offset points outward
-        edge = self.outward[j]
-        on &= np.einsum("ij,ij->i", t, edge) <= 0.05 * self.edge
+        loc = np.einsum("kij,kj->ki", self.axes[j], q - self.v[j])
+        h, a, b, out = loc[:, 0], loc[:, 1], loc[:, 2], loc[:, 3]
+        kk = self.k[j]
+        surf = 0.5 * (kk[:, 0] * a * a + kk[:, 1] * b * b)
+        # off the surface: too far sideways from the nearest vertex, or past the outward side
+        # of a boundary vertex
+        on = hit & (a * a + b * b <= self.off**2) & (out <= 0.05 * self.edge)
         return h - surf, on
 
 
@@ -389,23 +388,42 @@ def _march(
         dd = dirs[sl]
         sides = []
         for sign in (1.0, -1.0):
-            q = p0[:, None, :] + sign * s[None, :, None] * dd[:, None, :]
-            dev, on = probe(q.reshape(-1, 3))
-            dev, on = dev.reshape(len(p0), k + 1), on.reshape(len(p0), k + 1)
-            on[:, 0] = True
+            # march in blocks of samples; a line stops once it left the surface or its own
+            # side already spans more than the allowed range
+            dev = np.zeros((len(p0), k + 1))
+            on = np.zeros((len(p0), k + 1), bool)
+            active = np.arange(len(p0))
+            for c0 in range(0, k + 1, _BLOCK):
+                cols = np.arange(c0, min(k + 1, c0 + _BLOCK))
+                q = p0[active, None, :] + sign * s[None, cols, None] * dd[active, None, :]
+                d_blk, on_blk = probe(q.reshape(-1, 3))
+                dev[np.ix_(active, cols)] = d_blk.reshape(len(active), len(cols))
+                on[np.ix_(active, cols)] = on_blk.reshape(len(active), len(cols))
+                if c0 == 0:
+                    on[:, 0] = True
+                seen = dev[active, : cols[-1] + 1] - dev[active, :1]
+                live = on[active, : cols[-1] + 1].all(axis=1)
+                live &= np.ptp(seen, axis=1) <= allowed
+                active = active[live]
+                if active.size == 0:
+                    break
             dev = dev - dev[:, :1]
             # samples after the first one off the surface do not count
             alive = np.cumprod(on, axis=1).astype(bool)
             hi = np.maximum.accumulate(np.where(alive, dev, -np.inf), axis=1)
             lo = np.minimum.accumulate(np.where(alive, dev, np.inf), axis=1)
-            sides.append((hi, lo, alive))
-        (hp, lp, ap), (hn, ln, an) = sides
-        rng = np.maximum(hp[:, None, :], hn[:, :, None]) - np.minimum(
-            lp[:, None, :], ln[:, :, None]
+            sides.append((hi, lo, alive & (hi - lo <= allowed)))
+        (hp, lp, okp), (hn, ln, okn) = sides
+        # window [-i, +j] holds when each side alone fits and the two sides fit together:
+        # max(hp_j, hn_i) - min(lp_j, ln_i) <= allowed; every condition is monotone in j,
+        # so the feasible j of a given i form a prefix and their count is the longest j + 1
+        ok = (hp[:, None, :] <= ln[:, :, None] + allowed) & (
+            lp[:, None, :] >= hn[:, :, None] - allowed
         )
-        ok = (rng <= allowed) & ap[:, None, :] & an[:, :, None]
-        total = np.arange(k + 1)[:, None] + np.arange(k + 1)[None, :]
-        best = np.where(ok, total[None], 0).reshape(len(p0), -1).max(axis=1)
+        ok &= okp[:, None, :]
+        count = ok.sum(axis=2)
+        count[~okn] = 0
+        best = np.where(count > 0, np.arange(k + 1)[None, :] + count - 1, 0).max(axis=1)
         out[sl] = best * step
     return out
 
