@@ -16,21 +16,23 @@ sweep. For fixed x-positions the cut height at a sample is linear in the 2K unkn
    deviation >= 0 and minimizes the largest excess. The LP holds a working set of samples (the
    extreme residuals per strip and per slab of t) and adds the violated samples after each
    solve (constraint generation) until all samples satisfy the bound.
-3. **Correspondence**: the skew ``s_k = xR_k - xL_k`` of each ruling (mid-plane knot fixed) is
-   optimized jointly with the heights by ``scipy.optimize.least_squares`` (trf, analytic
-   sparse Jacobian: a sample depends only on the two rulings of its strip). It is seeded from
-   the target's asymptotic directions (a local quadratic fit of the height field at each knot:
-   the directions along which its Hessian vanishes, either family, tried both; the direction
-   of least normal curvature where there is none; only slopes |dx/dz| <= 1, i.e. rulings
-   within 45 degrees of the wire axis, which also bounds the skew). Box bounds
-   ``|s_k - seed_k| <= 0.45 dX`` on a seed with ``|seed_{k+1} - seed_k| <= dX`` keep the
-   rulings from crossing. Step 2 is then run again, and the result is kept only when it
-   lowers the max deviation.
+3. **Correspondence**: the skew ``s_k = xR_k - xL_k`` of each ruling (mid-plane knot fixed)
+   is optimized jointly with the heights by Levenberg-Marquardt on the sparse normal
+   equations of an analytic Jacobian (a sample depends only on the two rulings of its
+   strip). Seeds, the best by least-squares cost of: vertical rulings; a scan of candidate
+   lines through each knot, the straightest in the target, chained by dynamic programming;
+   the two asymptotic families of a local quadratic fit of the height field (the directions
+   along which its Hessian vanishes). Slopes are limited to |dx/dz| <= 1 (rulings within 45
+   degrees of the wire axis); hinge rows keep ``|s_{k+1} - s_k| < 1.95 dX`` so rulings never
+   cross inside the block, and the end rulings keep every sample covered. Step 2 is then run
+   again and the result kept only when it lowers the max deviation (the excess for
+   no-gouge) without losing coverage. Step 3 is skipped when steps 1-2 are already within
+   10 % of the tolerance or no seeded skew beats vertical rulings by 2 % in cost.
 
 Ruling spacing: the chord between two rulings of a section of curvature kappa sags by
 ``kappa H^2 / 8``; ``H = sqrt(8 * 0.1 tol / kappa)`` keeps that at 10 % of the tolerance,
-clamped to 5..100 mm, with kappa the 95th percentile of the sweep curvature estimated from
-second differences of cell-averaged sample heights.
+clamped to 2..100 mm, with kappa the 95th percentile of the section curvature ``|y_xx|``
+of local quadratic fits of the samples (:func:`estimate_sweep_curvature`).
 """
 
 from __future__ import annotations
@@ -40,6 +42,7 @@ from dataclasses import dataclass
 
 import numpy as np
 import scipy.sparse as sp
+from scipy.interpolate import LinearNDInterpolator
 from scipy.optimize import linprog
 from scipy.sparse.linalg import spsolve
 
@@ -55,7 +58,10 @@ _SMOOTH = 1e-3  # relative weight of the second-difference smoothing rows
 _LP_ROUNDS = 12
 _T_SLABS = 8
 _MAX_LSQ_SAMPLES = 8_000
-_LM_STEPS = 20
+_LM_STEPS = 40
+_SCAN_CANDIDATES = 61
+_CROSSING = 1.95  # largest skew change between neighbouring rulings, in knot spacings
+_GOOD_ENOUGH = 0.1  # step 3 is skipped when steps 1-2 are already within 10 % of tol
 _SEED_GAIN = 0.98  # a seeded skew must lower the least-squares cost by 2 % to run step 3
 _MAX_SLOPE = 1.0  # rulings within 45 degrees of the wire axis (|dx/dz| <= 1)
 
@@ -152,9 +158,9 @@ def estimate_sweep_curvature(points: np.ndarray, window_mm: float | None = None)
 
 def ruling_spacing_for(tolerance_mm: float, sweep_curvature_per_mm: float) -> float:
     """Knot spacing H (mm) whose chord sag ``kappa H^2 / 8`` is 10 % of the tolerance,
-    clamped to 5..100 mm."""
+    clamped to 2..100 mm."""
     kappa = max(float(sweep_curvature_per_mm), 1e-12)
-    return float(np.clip(math.sqrt(8.0 * 0.1 * float(tolerance_mm) / kappa), 5.0, 100.0))
+    return float(np.clip(math.sqrt(8.0 * 0.1 * float(tolerance_mm) / kappa), 2.0, 100.0))
 
 
 # --------------------------------------------------------------------------- the linear model
@@ -255,7 +261,8 @@ def _equal_error(a, yt, ny, cell, y0, policy: Policy, tol: float):
 
 def _skew_seeds(x, y, z, knots, h, z_mid, half_width) -> tuple[np.ndarray, np.ndarray]:
     """Two seeds of the ruling slope dx/dz per knot: the two asymptotic families of a local
-    quadratic fit of y(x, z) (roots m of ``p m^2 + 2 q m + r = 0``, higher root, lower root);
+    quadratic fit of y(x, z) (roots m of ``p m^2 + 2 q m + r = 0``), each followed along the
+    knots from one of the two roots at the first knot;
     the least-curved direction ``m = -q / p`` where the height field has no asymptotic
     direction (synclastic), 0 where it is flat."""
     p, q, r, _, ok = _local_hessians(x, y, z, knots, h, z_mid, half_width)
@@ -279,31 +286,139 @@ def _skew_seeds(x, y, z, knots, h, z_mid, half_width) -> tuple[np.ndarray, np.nd
         roots = [m for m in roots if abs(m) <= _MAX_SLOPE]
         if roots:
             hi[k], lo[k] = max(roots), min(roots)
-    return hi, lo
+    if ok.any() and not ok.all():  # knots without samples take the nearest fitted knot's seed
+        good = np.flatnonzero(ok)
+        near = good[np.clip(np.searchsorted(good, np.arange(len(knots))), 0, len(good) - 1)]
+        prev = good[np.clip(np.searchsorted(good, np.arange(len(knots))) - 1, 0, len(good) - 1)]
+        idx = np.arange(len(knots))
+        near = np.where(np.abs(prev - idx) < np.abs(near - idx), prev, near)
+        hi, lo = hi[near], lo[near]
+    return _track(hi, lo, hi[0]), _track(hi, lo, lo[0])
 
 
-def _monotone_seed(s: np.ndarray, dx: float, s_end: tuple[float, float]) -> np.ndarray:
-    """Clip a skew seed so neighbouring skews differ by at most dx and the end rulings keep
-    the samples covered (|s_0| <= s_end[0], |s_last| <= s_end[1])."""
-    s = s.copy()
-    s[0] = np.clip(s[0], -s_end[0], s_end[0])
-    s[-1] = np.clip(s[-1], -s_end[1], s_end[1])
+def _track(hi: np.ndarray, lo: np.ndarray, start: float) -> np.ndarray:
+    """Follow one family of roots along the knots: at each knot the root nearer the last."""
+    out = np.empty(len(hi))
+    last = start
+    for k in range(len(hi)):
+        last = hi[k] if abs(hi[k] - last) <= abs(lo[k] - last) else lo[k]
+        out[k] = last
+    return out
+
+
+def _skew_scan(x, y, z, knots, z_left, z_right, reach) -> np.ndarray:
+    """A skew seed (K,) mm by scanning candidate rulings through each knot.
+
+    For each knot and each candidate skew the target height (linear interpolation of the
+    samples over a Delaunay triangulation of their (x, z)) is read at 13 points along the
+    candidate line; the line's cost is the rms of those heights about their least-squares
+    line in t (0 for a straight line lying in the surface). A Viterbi pass (dynamic
+    programming over the knots) picks one candidate per knot with neighbouring skews less than
+    two knot spacings apart (rulings k and k + 1 cross inside the block once
+    ``|s_{k+1} - s_k| >= 2 dX``), and the tiny cost on skew changes keeps it on one ruling
+    family of a doubly ruled surface.
+    """
+    k = len(knots)
+    dx = float(knots[1] - knots[0])
+    if reach <= 0 or len(x) < 12:
+        return np.zeros(k)
+    step = min(dx / 2.0, reach / 10.0)
+    cand = np.arange(-reach, reach + 0.5 * step, step)
+    if len(cand) > _SCAN_CANDIDATES:
+        cand = np.linspace(-reach, reach, _SCAN_CANDIDATES)
+    if len(x) > 20_000:
+        keep = np.random.default_rng(1).choice(len(x), 20_000, replace=False)
+        x, y, z = x[keep], y[keep], z[keep]
+    try:
+        interp = LinearNDInterpolator(np.column_stack([x, z]), y)
+    except (ValueError, RuntimeError):  # degenerate (collinear) samples: no scan possible
+        return np.zeros(k)
+    t = np.linspace(0.0, 1.0, 13)
+    xs = knots[:, None, None] + (t[None, None, :] - 0.5) * cand[None, :, None]
+    zs = np.broadcast_to(z_left + t * (z_right - z_left), xs.shape)
+    ys = interp(xs.ravel(), zs.ravel()).reshape(xs.shape)
+    ok = np.isfinite(ys)
+    cnt = ok.sum(axis=2)
+    tt = np.broadcast_to(t, xs.shape)
+    w = ok.astype(float)
+    yv = np.where(ok, ys, 0.0)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        mt = (w * tt).sum(2) / cnt
+        my = (yv * w).sum(2) / cnt
+        ct = (w * (tt - mt[..., None]) ** 2).sum(2)
+        slope = (w * (tt - mt[..., None]) * (yv - my[..., None])).sum(2) / ct
+        res = w * (yv - my[..., None] - slope[..., None] * (tt - mt[..., None]))
+        cost = np.sqrt((res**2).sum(2) / cnt)
+    cost = np.where(cnt >= 7, cost, np.inf)
+    cost = np.where(np.isfinite(cost).any(axis=1, keepdims=True), cost, 0.0)
+    jump = np.abs(cand[:, None] - cand[None, :])
+    allowed = max(_CROSSING * dx, float(cand[1] - cand[0])) + 1e-9
+    trans = np.where(jump <= allowed, 1e-6 * jump, np.inf)
+    total = cost[0].copy()
+    back = np.zeros((k, len(cand)), int)
+    for i in range(1, k):
+        options = total[:, None] + trans
+        back[i] = np.argmin(options, axis=0)
+        total = options[back[i], np.arange(len(cand))] + cost[i]
+    pick = np.empty(k, int)
+    pick[-1] = int(np.argmin(total))
+    for i in range(k - 1, 0, -1):
+        pick[i - 1] = back[i, pick[i]]
+    return cand[pick]
+
+
+def _end_interval(a: np.ndarray, b: np.ndarray) -> tuple[float, float]:
+    """The interval of s with ``a_i s <= b_i`` for all i (empty -> its midpoint, twice)."""
+    pos, neg = a > 1e-12, a < -1e-12
+    upper = float(np.min(b[pos] / a[pos])) if pos.any() else np.inf
+    lower = float(np.max(b[neg] / a[neg])) if neg.any() else -np.inf
+    if lower > upper:
+        mid = 0.5 * (lower + upper)
+        return mid, mid
+    return lower, upper
+
+
+def _end_bounds(x, t, knots) -> tuple[np.ndarray, np.ndarray]:
+    """Skew bounds (K,) keeping every sample covered: the first ruling
+    ``knots[0] + (t - 1/2) s_0`` left of it and the last right of it, at the sample's t."""
+    k = len(knots)
+    lb, ub = np.full(k, -np.inf), np.full(k, np.inf)
+    a = t - 0.5
+    lb[0], ub[0] = _end_interval(a, x - knots[0])
+    lb[-1], ub[-1] = _end_interval(-a, knots[-1] - x)
+    return lb, ub
+
+
+def _monotone_seed(s: np.ndarray, dx: float, lb: np.ndarray, ub: np.ndarray) -> np.ndarray:
+    """Clip a skew seed into [lb, ub] with neighbouring skews less than 2 dx apart (rulings
+    that do not cross)."""
+    s = np.clip(s, lb, ub)
+    gap = _CROSSING * dx
     for k in range(1, len(s)):
-        s[k] = np.clip(s[k], s[k - 1] - dx, s[k - 1] + dx)
+        s[k] = np.clip(s[k], s[k - 1] - gap, s[k - 1] + gap)
     for k in range(len(s) - 2, -1, -1):
-        s[k] = np.clip(s[k], s[k + 1] - dx, s[k + 1] + dx)
-    return s
+        s[k] = np.clip(s[k], s[k + 1] - gap, s[k + 1] + gap)
+    return np.clip(s, lb, ub)
 
 
 def _skew_solve(pts, c, knots, s0, y0, z_left, z_right, m, lb, ub):
     """Joint least squares in (skew, heights): Levenberg-Marquardt (Levenberg 1944, Marquardt
-    1963) on the sparse normal equations of an analytic Jacobian, box bounds by projection."""
+    1963) on the sparse normal equations of an analytic Jacobian, box bounds by projection.
+    Rulings are kept from crossing by hinge rows ``mu * max(|s_{k+1} - s_k| - 1.95 dX, 0)``
+    (the rulings k and k + 1 cross inside the block once ``|s_{k+1} - s_k| >= 2 dX``)."""
     k = len(knots)
     x, yt, z = pts[:, 0], pts[:, 1], pts[:, 2]
     d2 = _second_difference(k)
-    lam = _SMOOTH * math.sqrt(float((c * c).sum()) / max(k, 1))
+    lam = 1e-2 * _SMOOTH * math.sqrt(float((c * c).sum()) / max(k, 1))
     reg = lam * sp.block_diag([d2, d2, d2]).tocsr()
     n = len(x)
+    gap = _CROSSING * np.diff(knots)
+    mu = 10.0 * math.sqrt(float((c * c).sum()))
+    d1 = sp.diags([-1.0, 1.0], [0, 1], shape=(k - 1, 3 * k), format="csr")
+
+    def hinge(v):
+        d = d1 @ v
+        return d, np.maximum(np.abs(d) - gap, 0.0)
 
     def parts(v):
         s, yl, yr = v[:k], v[k : 2 * k], v[2 * k :]
@@ -318,7 +433,7 @@ def _skew_solve(pts, c, knots, s0, y0, z_left, z_right, m, lb, ub):
 
     def fun(v):
         *_, yc = parts(v)
-        return np.concatenate([c * (yc - yt), reg @ v])
+        return np.concatenate([c * (yc - yt), reg @ v, mu * hinge(v)[1]])
 
     def jac(v):
         j, w, t, g, _ = parts(v)
@@ -336,7 +451,9 @@ def _skew_solve(pts, c, knots, s0, y0, z_left, z_right, m, lb, ub):
             ]
         )
         data = sp.csr_matrix(((vals * c[:, None]).ravel(), (rows, cols)), shape=(n, 3 * k))
-        return sp.vstack([data, reg]).tocsr()
+        d, over = hinge(v)
+        active = sp.diags(mu * np.sign(d) * (over > 0)) @ d1
+        return sp.vstack([data, reg, active]).tocsr()
 
     v = np.concatenate([s0, y0])
     lo = np.concatenate([lb, np.full(2 * k, -np.inf)])
@@ -481,12 +598,16 @@ def fit_cut(
     cut, eps, iterations, _ = linear_fit(s_zero, None)
     report = signed_deviation(cut, samples, tolerance)
     skewed = False
-    if correspondence and report.max_abs_mm > 1e-6:
+    if correspondence and report.max_abs_mm > _GOOD_ENOUGH * tol:
         hi, lo = _skew_seeds(x, yt, z, knots, h, z_mid, half)
-        s_end = (2.0 * max(xmin - x0, 0.0) * 0.98, 2.0 * max(x1 - xmax, 0.0) * 0.98)
+        t_all = (z - z_left) / width
+        end_lb, end_ub = _end_bounds(x, t_all, knots)
+        reach = _MAX_SLOPE * width
+        end_lb, end_ub = np.maximum(end_lb, -reach), np.minimum(end_ub, reach)
+        scan = _skew_scan(x, yt, z, knots, z_left, z_right, reach)
         tried = []
-        for m in (s_zero, hi, lo):
-            s = _monotone_seed(m * width, dx, s_end)
+        for m in (s_zero, scan / width, hi, lo):
+            s = _monotone_seed(m * width, dx, end_lb, end_ub)
             flat = _cut(knots - s / 2, knots + s / 2, s_zero, s_zero, z_left, z_right, None)
             a, _ = _design(flat, x, z)
             y1 = _least_squares_heights(a, yt, c, k)
@@ -499,19 +620,10 @@ def fit_cut(
         if len(sub) > _MAX_LSQ_SAMPLES:
             sub = np.random.default_rng(0).choice(len(x), _MAX_LSQ_SAMPLES, replace=False)
         pts_sub = np.column_stack([x, yt, z])[sub]
-        for _ in range(2):
-            reach = _MAX_SLOPE * width
-            lb = np.maximum(s - 0.45 * dx, np.r_[-s_end[0], np.full(k - 2, -reach), -s_end[1]])
-            ub = np.minimum(s + 0.45 * dx, np.r_[s_end[0], np.full(k - 2, reach), s_end[1]])
-            ub = np.maximum(ub, lb + 1e-9)
-            s_new, y_new, nfev = _skew_solve(
-                pts_sub, c[sub], knots, s, y1, z_left, z_right, part_to_machine, lb, ub
-            )
-            iterations += nfev
-            at_bound = np.any(np.isclose(s_new, lb) | np.isclose(s_new, ub))
-            s, y1 = s_new, y_new
-            if not at_bound:
-                break
+        s, y1, nfev = _skew_solve(
+            pts_sub, c[sub], knots, s, y1, z_left, z_right, part_to_machine, end_lb, end_ub
+        )
+        iterations += nfev
         cut3, eps3, rounds3, _ = linear_fit(s, y1)
         iterations += rounds3
         if cut3.is_monotone():

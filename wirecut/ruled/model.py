@@ -125,7 +125,8 @@ class RuledCut:
         x1 = (1.0 - t) * lx[j + 1] + t * rx[j + 1]
         first = (1.0 - t) * lx[0] + t * rx[0]
         last = (1.0 - t) * lx[-1] + t * rx[-1]
-        inside = (x >= first) & (x <= last)
+        fuzz = 1e-9 * (1.0 + np.abs(x))  # rounding of points lying on the end rulings
+        inside = (x >= first - fuzz) & (x <= last + fuzz)
         w = (x - x0) / np.where(x1 > x0, x1 - x0, 1.0)
         return j, w, t, inside
 

@@ -1,0 +1,142 @@
+"""The ruled fit on shapes whose best cut is known by construction."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from ruled_shapes import height_field_samples, ruled_samples
+
+from wirecut.config import Policy, ToleranceSpec
+from wirecut.ruled.fit import fit_cut
+from wirecut.ruled.model import RuledCut
+
+EYE = np.eye(4)
+
+
+def sagitta(radius: float, chord: float) -> float:
+    # sagitta s = R - sqrt(R^2 - c^2/4) (standard circle geometry)
+    return radius - np.sqrt(radius**2 - chord**2 / 4.0)
+
+
+@pytest.mark.parametrize("swap", [False, True])
+def test_hyperbolic_paraboloid_is_recovered(swap):
+    # y = x z / c: for fixed z, y is linear in x and for fixed x linear in z (doubly ruled,
+    # standard); wire along either family of rulings
+    c = 300.0
+    xs, zs = np.linspace(-150, 150, 91), np.linspace(-100, 100, 41)
+    if swap:
+        xs, zs = zs, xs
+    s = height_field_samples(lambda x, z: x * z / c + 400.0, xs, zs)
+    fit = fit_cut(s, zs[0], zs[-1], EYE, ToleranceSpec(0.05))
+    assert fit.report.max_abs_mm < 0.001  # doubly ruled: exact
+    assert fit.report.feasible_area_fraction == pytest.approx(1.0)
+    assert fit.cut.is_monotone()
+
+
+def test_cylinder_along_its_axis_is_exact():
+    # a cylinder is ruled along its axis (standard); with tolerance 0.01 mm the ruling spacing
+    # keeps the chord sag between rulings at 10 % of it, so the balanced error is <= 0.0005 mm
+    r = 800.0
+    s = height_field_samples(
+        lambda x, z: np.sqrt(r**2 - x**2), np.linspace(-150, 150, 301), np.linspace(-100, 100, 21)
+    )
+    fit = fit_cut(s, -100.0, 100.0, EYE, ToleranceSpec(0.01))
+    assert fit.report.max_abs_mm < 0.001
+
+
+@pytest.mark.parametrize(
+    ("policy", "share"),
+    [
+        (Policy.BALANCED, 0.5),  # Chebyshev equioscillation: best line error = s / 2
+        (Policy.NO_GOUGE, 1.0),  # chord through the ends, above the arc: excess = s
+    ],
+)
+def test_cylinder_across_its_axis_costs_the_sagitta(policy, share):
+    r, w = 800.0, 300.0
+    s = height_field_samples(
+        lambda x, z: np.sqrt(r**2 - z**2), np.linspace(-100, 100, 21), np.linspace(-150, 150, 121)
+    )
+    fit = fit_cut(s, -w / 2, w / 2, EYE, ToleranceSpec(0.5, policy), correspondence=False)
+    expected = share * sagitta(r, w)
+    assert fit.report.max_abs_mm == pytest.approx(expected, rel=0.02)
+    if policy is Policy.NO_GOUGE:
+        assert fit.report.max_gouge_mm < 1e-6  # never into the part
+        assert fit.report.gouge_area_fraction == 0.0
+
+
+@pytest.mark.parametrize("policy", [Policy.BALANCED, Policy.NO_GOUGE])
+def test_spherical_cap_strip(policy):
+    # the section of a sphere by the plane x = const is a circle of radius sqrt(R^2 - x^2)
+    # (standard); the worst strip is the outermost one
+    big_r, w, half_x = 800.0, 200.0, 40.0
+    s = height_field_samples(
+        lambda x, z: np.sqrt(big_r**2 - x**2 - z**2),
+        np.linspace(-half_x, half_x, 81),
+        np.linspace(-w / 2, w / 2, 81),
+    )
+    fit = fit_cut(s, -w / 2, w / 2, EYE, ToleranceSpec(0.5, policy))
+    sag = sagitta(np.sqrt(big_r**2 - half_x**2), w)
+    if policy is Policy.BALANCED:
+        assert fit.report.max_abs_mm == pytest.approx(sag / 2, rel=0.02)  # equioscillation
+    else:
+        assert fit.report.max_excess_mm == pytest.approx(sag, rel=0.02)
+        assert fit.report.max_gouge_mm < 1e-6  # zero gouge
+
+
+def test_hyperboloid_of_one_sheet_along_its_rulings():
+    # x^2/a^2 + y^2/a^2 - z^2/c^2 = 1 is doubly ruled: (a(cos u - v sin u), a(sin u + v cos u),
+    # c v) (Weisstein, MathWorld, "One-Sheeted Hyperboloid"); at the top the rulings have
+    # dx/dz = -+a/c, so vertical rulings cannot follow them and step 3 must
+    a, c, w = 500.0, 1000.0, 200.0
+    s = height_field_samples(
+        lambda x, z: np.sqrt(a**2 * (1 + z**2 / c**2) - x**2),
+        np.linspace(-80, 80, 161),
+        np.linspace(-w / 2, w / 2, 41),
+    )
+    fit = fit_cut(s, -w / 2, w / 2, EYE, ToleranceSpec(0.01), ruling_spacing_mm=2.0)
+    assert fit.skewed
+    assert fit.cut.is_monotone()
+    skew = fit.cut.right[:, 0] - fit.cut.left[:, 0]
+    mid = np.argmin(np.abs(0.5 * (fit.cut.left[:, 0] + fit.cut.right[:, 0])))
+    # the ruling through the top (u = pi/2) has dx/dz = -a/c: skew = -+ w a / c
+    assert abs(skew[mid]) == pytest.approx(w * a / c, rel=0.02)
+    assert fit.report.max_abs_mm < 0.001
+
+
+def _smooth(rng, n: int, amp: float) -> np.ndarray:
+    k = np.arange(1, 4)
+    phase = rng.uniform(0, 2 * np.pi, 3)
+    a = rng.normal(0, amp, 3) / k**2
+    u = np.linspace(0, 1, n)
+    return (a[None, :] * np.sin(2 * np.pi * k[None, :] * u[:, None] + phase)).sum(axis=1)
+
+
+@pytest.mark.parametrize("seed", [1, 2, 3])
+def test_random_ruled_surface_is_recovered(seed):
+    # a ruled surface built from two random smooth directrices through the same knots is its
+    # own best fit (by construction)
+    rng = np.random.default_rng(seed)
+    k = 31
+    knots = np.linspace(-150, 150, k)
+    skew = 30.0 + _smooth(rng, k, 30.0)
+    truth = RuledCut(
+        np.column_stack([knots - skew / 2, 500 + _smooth(rng, k, 40.0)]),
+        np.column_stack([knots + skew / 2, 520 + _smooth(rng, k, 40.0)]),
+        -100.0,
+        100.0,
+        EYE,
+    )
+    assert truth.is_monotone()
+    s = ruled_samples(truth)
+    fit = fit_cut(
+        s,
+        -100.0,
+        100.0,
+        EYE,
+        ToleranceSpec(0.01),
+        x_range=(knots[0], knots[-1]),
+        ruling_spacing_mm=knots[1] - knots[0],
+    )
+    assert fit.report.max_abs_mm < 0.001
+    assert fit.report.outside_area_fraction == 0.0
+    assert fit.cut.is_monotone()
