@@ -55,6 +55,9 @@ def test_greedy_matches_exhaustive_search(seed: int, min_cells: int) -> None:
     max_w = float(rng.integers(3, 7)) * step
     min_w = min_cells * step
     plan = greedy_strips(lo, hi, feasible, max_w, min_w, step)
+    # where the search starts changes the number of asks, never the cuts
+    guessed = greedy_strips(lo, hi, feasible, max_w, min_w, step, guess_mm=rng.uniform(0, 80))
+    assert np.array_equal(guessed.cuts, plan.cuts)
     best = brute_force(n, step, lo, hi, feasible, max_w, min_w)
     assert best is not None
     # exhaustive search over all cut positions on the grid (reference), greedy stays ahead

@@ -31,6 +31,7 @@ import shapely
 from shapely.geometry import Polygon
 
 from wirecut.config import JobProfile
+from wirecut.errors import JobError
 from wirecut.findings import Finding, Severity
 from wirecut.geometry.frames import DirectionFrame, plan_basis, rigid
 from wirecut.pieces.piece import Block, Piece
@@ -95,6 +96,7 @@ def greedy_strips(
     min_width_mm: float,
     resolution_mm: float,
     progress: Callable[[str], None] | None = None,
+    guess_mm: float | None = None,
 ) -> StripPlan:
     """Fewest strips covering ``[lo, hi]`` whose every strip passes ``feasible``.
 
@@ -113,6 +115,9 @@ def greedy_strips(
         start (the last one is clamped to ``hi``).
     progress : callable (str) -> None, optional
         Told about each strip found.
+    guess_mm : float, optional
+        Expected strip width where the search starts (later strips start from the previous
+        width); it changes only how many times the oracle is asked, never the result.
 
     Returns
     -------
@@ -132,16 +137,58 @@ def greedy_strips(
         calls += 1
         return bool(feasible(a, b))
 
+    def largest(a: float, lo_k: int, hi_k: int, guess: int) -> int:
+        """Largest k in [lo_k, hi_k] with a feasible strip of k steps (lo_k - 1 if none):
+        galloping search from the guess, then bisection (same answer as plain bisection
+        for a monotone oracle, fewer asks when neighbouring strips have similar widths)."""
+        g = min(max(guess, lo_k), hi_k)
+        if ask(a, a + g * step):
+            good, d = g, 1
+            while True:
+                if good == hi_k:
+                    return good
+                nxt = min(good + d, hi_k)
+                if not ask(a, a + nxt * step):
+                    bad = nxt
+                    break
+                good, d = nxt, 2 * d
+        else:
+            bad, d = g, 1
+            while True:
+                if bad == lo_k:
+                    return lo_k - 1
+                nxt = max(bad - d, lo_k)
+                if ask(a, a + nxt * step):
+                    good = nxt
+                    break
+                bad, d = nxt, 2 * d
+        while bad - good > 1:
+            mid = (good + bad) // 2
+            if ask(a, a + mid * step):
+                good = mid
+            else:
+                bad = mid
+        return good
+
+    guess = min(2 * k_min, k_max)  # narrow strips are the cheap ones to fit
+    if guess_mm is not None and guess_mm > 0:
+        guess = int(round(guess_mm / step))
     a = float(lo)
     while hi - a > 1e-9:
         rest = hi - a
-        if rest <= k_max * step + 1e-9 and ask(a, hi):
+        whole = rest <= k_max * step + 1e-9
+        top = min(k_max, int(math.ceil(rest / step - 1e-9)) - 1)
+        if whole and (top < k_min or rest <= guess * step + 1e-9) and ask(a, hi):
             # the rest fits in one strip (widened to the minimum width if narrower)
             cuts.append(max(hi, a + k_min * step) if rest < min_width_mm else hi)
             ok.append(True)
             break
-        top = min(k_max, int(math.ceil(rest / step - 1e-9)) - 1)
-        if top < k_min or not ask(a, a + k_min * step):
+        good = largest(a, k_min, top, guess) if top >= k_min else k_min - 1
+        if good == top and whole and rest > guess * step + 1e-9 and ask(a, hi):
+            cuts.append(hi)
+            ok.append(True)
+            break
+        if good < k_min:
             b = a + k_min * step
             cuts.append(b)
             ok.append(False)
@@ -149,21 +196,10 @@ def greedy_strips(
                 progress(f"strip {len(ok)}: {a:.1f}..{b:.1f} mm fails tolerance at min width")
             a = b
             continue
-        # largest k in [k_min, top] with feasible(a, a + k step): bisection
-        good, bad = k_min, top + 1
-        if ask(a, a + top * step):
-            good = top
-        else:
-            bad = top
-            while bad - good > 1:
-                mid = (good + bad) // 2
-                if ask(a, a + mid * step):
-                    good = mid
-                else:
-                    bad = mid
         b = a + good * step
         cuts.append(b)
         ok.append(True)
+        guess = good
         if progress is not None:
             progress(f"strip {len(ok)}: {a:.1f}..{b:.1f} mm")
         a = b
@@ -396,11 +432,14 @@ def _fit(fitter, target, region, block, transform, job, spacing):
     from wirecut.ruled.sampling import sample_target
 
     samples = sample_target(target, transform, region=region, spacing_mm=spacing)
-    if len(samples) == 0:
+    if len(samples) == 0 or np.all(samples.undercut):
         return None
-    return fitter(
-        samples, block.z_mm[0], block.z_mm[1], transform, job.tolerance, x_range=block.x_mm
-    )
+    try:
+        return fitter(
+            samples, block.z_mm[0], block.z_mm[1], transform, job.tolerance, x_range=block.x_mm
+        )
+    except JobError:  # too few reachable samples in the region: nothing a wire can fit
+        return None
 
 
 def _layout(
@@ -464,8 +503,6 @@ def split_pieces(
         raise ValueError("split_pieces needs at least one wire direction")
     surf = _Surface(target, job, frames[0].rotation)
     if surf.fp.is_empty:
-        from wirecut.errors import JobError
-
         raise JobError("the target has no plan-view area to cut (every face is vertical)")
     max_w, max_len = split_limits(job)
     min_w = job.pieces.min_width_mm
@@ -488,7 +525,11 @@ def split_pieces(
             fit = _fit(fitter, target, region, block, transform, job, spacing)
             return fit is None or fit.report.max_abs_mm <= COARSE_ACCEPT * tol
 
-        plan = greedy_strips(lo, hi, feasible, max_w, min_w, step)
+        reach = _reach(analysis)
+        guess = None
+        if reach is not None and np.any(np.isfinite(reach)):
+            guess = float(np.nanmedian(reach))
+        plan = greedy_strips(lo, hi, feasible, max_w, min_w, step, guess_mm=guess)
         layout = _layout(surf, frame, plan.cuts, job, max_len)
         bound = strip_count_bound(hi - lo, _reach(analysis), max_w)
         trials.append((frame, plan, layout, bound))
