@@ -40,8 +40,8 @@ def saddle_result():
 
 def test_saddle_is_ruled_with_full_reach(saddle_result):
     target, an = saddle_result
-    i = an.curvature.interior
-    assert (an.kind[i] == RULED).all()
+    assert (an.kind == RULED).all()
+    i = np.ones(len(an.kind), bool)
     x, y = target.vertices[:, 0], target.vertices[:, 1]
     # the rulings through (x0, y0) cross the 1 m square: length 1000 sqrt(1 + (y0/c)^2) along x
     # and 1000 sqrt(1 + (x0/c)^2) along y (arc length of a straight line z = x y0 / c)
@@ -112,17 +112,12 @@ def test_developable_reach_along_the_rulings(shape):
         v, f = cone(200.0, 400.0, 1000.0, 61, 41)
         ruling = np.hypot(1000.0, 200.0)  # generator from radius 200 to 400 over 1000 mm
     target, an = _analyse(v, f)
-    i = an.curvature.interior
-    assert (an.kind[i] == DEVELOPABLE).all()
-    # away from the two long edges (3 grid steps of the 61 around the half turn), where the
-    # one-sided fit tilts the ruling direction enough for the line to leave the surface
-    t = np.arctan2(target.vertices[:, 2], target.vertices[:, 1])
-    away = i & (np.abs(t - np.pi / 2) < np.pi / 2 - 3 * np.pi / 60 + 1e-9)
-    assert np.abs(an.wire_reach_mm[away] / ruling - 1).max() < 0.03
-    assert np.median(an.wire_reach_mm[i]) == pytest.approx(ruling, rel=0.03)
+    # boundary vertices included (they take the class and reach of the nearest interior vertex)
+    assert (an.kind == DEVELOPABLE).all()
+    assert np.abs(an.wire_reach_mm / ruling - 1).max() < 0.03
     # the reach runs along the generators: for the cylinder exactly along x
     if shape == "cylinder":
-        assert np.abs(an.reach_direction[i, 0]).min() > 0.999
+        assert np.abs(an.reach_direction[:, 0]).min() > 0.999
 
 
 def test_developable_rule_follows_the_sagitta_bound():

@@ -7,7 +7,8 @@ Classes (per vertex, ``kind``)
     ``L = min(span - 2 face_to_tower, surface extent)``: ``k_min <= 8 s / L^2``;
     1 ruled: ``K < 0`` (two asymptotic directions: a straight line lies in the surface to first
     order); 2 synclastic: ``K > 0``. ``K`` is the angle-defect curvature at interior vertices and
-    ``k1 k2`` of the quadric fit on the boundary.
+    ``k1 k2`` of the fit on the boundary (used only when the mesh has no interior vertex).
+    Boundary vertices take the class, reach and direction of the nearest interior vertex.
 
 Allowed error ``s`` of a straight line against the surface, by policy
     ``balanced``: the best line equioscillates (Chebyshev alternation), so a chord whose sagitta is
@@ -276,6 +277,17 @@ def analyse_surface(target: TargetSurface, job: JobProfile) -> SurfaceAnalysis:
         direction[cand] = opts[np.arange(len(cand)), choice]
         direction[pick] = best_dir
         marched[pick] = True
+
+    # boundary vertices have one-sided fits and no defect curvature: they take the class, the
+    # reach and the direction of the nearest interior vertex
+    edge_v = np.flatnonzero(~cu.interior)
+    inner_v = np.flatnonzero(cu.interior)
+    if edge_v.size and inner_v.size:
+        _, near = cKDTree(target.vertices[inner_v]).query(target.vertices[edge_v])
+        src = inner_v[near]
+        kind[edge_v] = kind[src]
+        reach[edge_v] = reach[src]
+        direction[edge_v] = direction[src]
 
     w = target.waste_normal
     undercut = (target.vertex_normals @ w <= 0.0) | occluded_vertices(target)
