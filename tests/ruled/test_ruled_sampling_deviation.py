@@ -1,0 +1,149 @@
+"""Sampling and signed deviation against independent references."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+import shapely
+import trimesh
+from ruled_shapes import GridTarget, grid_target, height_field_samples
+
+from wirecut.config import MoldSide, Policy, ToleranceSpec
+from wirecut.geometry.frames import rigid, rotation_part_to_machine
+from wirecut.ruled.deviation import signed_deviation, weighted_quantile
+from wirecut.ruled.fit import fit_cut
+from wirecut.ruled.model import RuledCut
+from wirecut.ruled.sampling import sample_target, spacing_for
+
+UP = np.array([0.0, 0.0, 1.0])
+
+
+def _setup(wire=(0.0, 1.0, 0.0), shift=(0.0, 0.0, 0.0)) -> np.ndarray:
+    rot = rotation_part_to_machine(np.array(wire), UP, MoldSide.BELOW)
+    return rigid(rot, np.array(shift))
+
+
+def _sphere_target(radius=800.0, half=100.0, n=41) -> GridTarget:
+    g = np.linspace(-half, half, n)
+    return grid_target(lambda x, y: np.sqrt(radius**2 - x**2 - y**2) - radius + 100.0, g, g)
+
+
+def test_weights_sum_to_the_mesh_area_and_spacing_holds():
+    target = _sphere_target()
+    h = 3.0
+    s = sample_target(target, _setup(), spacing_mm=h)
+    area = trimesh.Trimesh(target.vertices, target.faces, process=False).area  # trimesh's own
+    assert s.area_mm2 == pytest.approx(area, rel=1e-12)
+    # every face's lattice has at most h between neighbours: its nearest other sample of the
+    # same face is closer than h (the lattice is built that way)
+    from scipy.spatial import cKDTree
+
+    pts = s.points[s.face == 100]
+    d, _ = cKDTree(pts).query(pts, k=2)
+    assert d[:, 1].max() <= h + 1e-9
+
+
+def test_region_clip_keeps_the_polygon_area_of_a_plane():
+    g = np.linspace(0.0, 200.0, 21)
+    target = grid_target(lambda x, y: 0.0 * x + 10.0, g, g)
+    region = shapely.Polygon([(20, 30), (170, 30), (170, 130), (20, 130)])
+    s = sample_target(target, _setup(), region=region, spacing_mm=2.0)
+    # a flat plane's area inside a rectangle is the rectangle's (plane geometry); the lattice
+    # resolves the cut through faces to about one spacing along the outline
+    assert s.area_mm2 == pytest.approx(region.area, abs=region.length * 2.0)
+    assert (s.weights == 0).sum() > 0  # zero-weight samples on the outline
+    assert shapely.intersects_xy(region.buffer(1e-6), s.plan_xy[:, 0], s.plan_xy[:, 1]).all()
+
+
+def test_reported_max_within_one_percent_of_a_dense_brute_force():
+    target = _sphere_target(half=60.0, n=25)
+    m = _setup()
+    tol = ToleranceSpec(0.5, Policy.BALANCED)
+    h = spacing_for(tol.surface_mm, 1.0 / 800.0, 20.0)
+    s = sample_target(target, m, spacing_mm=h)
+    fit = fit_cut(s, -60.0, 60.0, m, tol)
+    verts, faces = fit.cut.to_mesh(steps_along_wire=50)
+    mesh = trimesh.Trimesh(verts, faces, process=False)
+    dense = sample_target(target, m, spacing_mm=h / 4.0)
+    inside = (dense.points[:, 0] > fit.cut.left[0, 0]) & (dense.points[:, 0] < fit.cut.left[-1, 0])
+    # closest point on the cut's triangle mesh (trimesh.proximity.closest_point), unsigned
+    _, dist, _ = trimesh.proximity.closest_point(mesh, dense.points[inside])
+    assert fit.report.max_abs_mm == pytest.approx(dist.max(), rel=0.01)
+
+
+def test_signed_deviation_of_an_offset_plane_is_the_point_plane_distance():
+    # distance of a point from the plane y = a x + b z + c is |dy| / sqrt(1 + a^2 + b^2)
+    # (standard point-plane distance); + when the cut lies above (waste side)
+    a, b, c, d = 0.3, -0.2, 50.0, 0.7
+    xs, zs = np.linspace(0, 100, 21), np.linspace(0, 80, 17)
+    s = height_field_samples(lambda x, z: a * x + b * z + c, xs, zs)
+    knots = np.linspace(-10, 110, 7)
+    cut = RuledCut(
+        np.column_stack([knots, a * knots + c + d]),
+        np.column_stack([knots, a * knots + b * 80.0 + c + d]),
+        0.0,
+        80.0,
+        np.eye(4),
+    )
+    r = signed_deviation(cut, s, ToleranceSpec(0.5))
+    assert np.allclose(r.signed, d / np.sqrt(1 + a * a + b * b), atol=1e-12)
+    r2 = signed_deviation(cut, s, ToleranceSpec(0.5))
+    assert r2.excess_area_fraction == 1.0 and r2.gouge_area_fraction == 0.0
+    lower = RuledCut(cut.left - [0, 2 * d], cut.right - [0, 2 * d], 0.0, 80.0, np.eye(4))
+    r3 = signed_deviation(lower, s, ToleranceSpec(0.5))
+    assert np.allclose(r3.signed, -d / np.sqrt(1 + a * a + b * b), atol=1e-12)
+    assert r3.gouge_area_fraction == 1.0 and r3.feasible_area_fraction == 0.0
+
+
+def test_height_at_matches_a_per_row_interpolation():
+    rng = np.random.default_rng(7)
+    k = 40
+    knots = np.sort(rng.uniform(0, 500, k))
+    knots = np.unique(knots)
+    skew = rng.uniform(-0.4, 0.4) * np.min(np.diff(knots)) * np.ones(len(knots))
+    cut = RuledCut(
+        np.column_stack([knots - skew / 2, rng.uniform(100, 200, len(knots))]),
+        np.column_stack([knots + skew / 2, rng.uniform(100, 200, len(knots))]),
+        0.0,
+        300.0,
+        np.eye(4),
+    )
+    x = rng.uniform(knots[0], knots[-1], 500)
+    z = rng.uniform(0, 300, 500)
+    got = cut.height_at(x, z)
+    ref = np.empty(len(x))
+    for i in range(len(x)):  # reference: numpy's 1D interpolation of the section polyline
+        q = cut.at_plane(z[i])
+        ref[i] = np.interp(x[i], q[:, 0], q[:, 1], left=np.nan, right=np.nan)
+    ok = np.isfinite(ref)
+    assert np.allclose(got[ok], ref[ok], atol=1e-9)
+    assert np.isnan(got[~ok]).all()
+
+
+def test_weighted_quantile_of_equal_weights_is_the_order_statistic():
+    v = np.arange(1.0, 101.0)
+    # the 95th of 1..100 with equal weights is 95 (lower order statistic, definition)
+    assert weighted_quantile(v, np.ones(100), 0.95) == 95.0
+
+
+def test_overhang_is_reported_undercut_and_never_feasible():
+    g = np.linspace(0.0, 200.0, 11)
+    floor = grid_target(lambda x, y: 0.0 * x, g, g)
+    # the underside of a ledge 50 mm above the floor: its normals look down, away from the
+    # waste side (machine +y), so no wire from above reaches it (by construction)
+    ledge_v = np.array(
+        [[50.0, 50.0, 50.0], [150.0, 50.0, 50.0], [150.0, 150.0, 50.0], [50.0, 150.0, 50.0]]
+    )
+    ledge_f = np.array([[0, 2, 1], [0, 3, 2]]) + len(floor.vertices)
+    verts = np.vstack([floor.vertices, ledge_v])
+    faces = np.vstack([floor.faces, ledge_f])
+    normals = np.vstack([floor.face_normals, np.tile([0.0, 0.0, -1.0], (2, 1))])
+    target = GridTarget(verts, faces, normals, UP)
+    m = _setup(wire=(1.0, 0.0, 0.0), shift=(0.0, 0.0, 0.0))
+    s = sample_target(target, m, spacing_mm=5.0)
+    fit = fit_cut(s, 0.0, 200.0, m, ToleranceSpec(0.5))
+    r = fit.report
+    ledge_area, total = 100.0 * 100.0, 200.0 * 200.0 + 100.0 * 100.0
+    assert r.undercut_area_fraction == pytest.approx(ledge_area / total, rel=1e-9)
+    assert not r.within[s.undercut].any()
+    assert r.feasible_area_fraction == pytest.approx(1 - ledge_area / total, rel=1e-6)
