@@ -153,3 +153,36 @@ def test_pipe_overhang_undercut():
     # the trough is a valley: k1 = +1/R across (toward the waste-side normal), 0 along x
     i = an.curvature.interior
     assert np.abs(an.curvature.k1[i] * radius - 1).max() < 0.02
+
+
+def test_vertical_wall_is_not_undercut_and_overhang_is():
+    # a vertical wall: n . up = 0, cut by a wire moving straight down along it (limit case)
+    wall = np.array([[0, 0, 0], [500, 0, 0], [500, 0, 500], [0, 0, 500]], float)
+    _, an = _analyse(wall, np.array([[0, 1, 2], [0, 2, 3]]))
+    assert not an.undercut.any()
+    # a small roof tilted 45 deg over a floor: the floor below it is hidden from above
+    floor = np.array([[0, 0, 0], [1000, 0, 0], [1000, 1000, 0], [0, 1000, 0]], float)
+    roof = np.array([[200, 200, 300], [800, 200, 300], [800, 800, 600], [200, 800, 600]], float)
+    v = np.vstack([floor, roof])
+    f = np.array([[0, 1, 2], [0, 2, 3], [4, 5, 6], [4, 6, 7]])
+    target, an = _analyse(v, f)
+    # floor corners lie outside the roof's plan square [200, 800]^2: reachable (by construction)
+    assert not an.undercut.any()
+    # add a floor vertex under the roof: it is occluded
+    v2 = np.vstack([v, [[500, 500, 0]]])
+    f2 = np.array([[0, 1, 8], [1, 2, 8], [2, 3, 8], [3, 0, 8], [4, 5, 6], [4, 6, 7]])
+    target, an = _analyse(v2, f2)
+    hidden = np.flatnonzero(np.all(np.isclose(target.vertices, [500, 500, 0]), axis=1))
+    assert an.undercut[hidden].all()
+    assert an.undercut.sum() == 1
+
+
+def test_tiny_mesh_without_interior_vertices():
+    # a single plane of two triangles: no interior vertex, so no curvature statistics
+    v = np.array([[0, 0, 0], [800, 0, 0], [800, 600, 0], [0, 600, 0]], float)
+    _, an = _analyse(v, np.array([[0, 1, 2], [0, 2, 3]]))
+    js = an.to_json()
+    assert js["gaussian_curvature_per_mm2"]["median"] is None
+    assert js["developable_area_fraction"] == 1.0
+    # a straight wire across an 800 x 600 plane is at most its 1000 mm diagonal (Pythagoras)
+    assert (an.wire_reach_mm <= 1000.0 + 1e-9).all() and (an.wire_reach_mm >= 600.0 - 10).all()

@@ -170,3 +170,38 @@ def test_open_surface_flipped_toward_waste_and_made_consistent():
     below = dataclasses.replace(JOB, mold=dataclasses.replace(JOB.mold, up=(0.0, 0.0, -1.0)))
     down, _ = target_from_arrays(v, f, below)
     assert (down.face_normals[:, 2] < 0).all()
+
+
+def test_glb_scene_is_concatenated(tmp_path):
+    a = _saddle_mesh()
+    b = _saddle_mesh()
+    b.apply_translation([1500.0, 0.0, 0.0])
+    scene = trimesh.Scene([a, b])
+    path = tmp_path / "two.glb"
+    scene.export(path)
+    target, _ = load_target(path, JOB)
+    # two 21 x 21 grids side by side (by construction)
+    assert len(target.faces) == 1600
+    assert target.area_mm2 == pytest.approx(2 * a.area, rel=1e-6)
+    assert np.ptp(target.vertices[:, 0]) == pytest.approx(2500.0)
+
+
+def test_units_hint_for_a_large_mesh(tmp_path):
+    v, f = saddle(c=2000.0, half=500.0, n=11)
+    path = tmp_path / "big.obj"
+    trimesh.Trimesh(v, f, process=False).export(path)
+    # a 1 m part read as if in metres is 1 km across: the hint is to read it in mm
+    _, findings = load_target(path, JOB, units=Units.M)
+    warn = [f for f in findings if f.code == "suspicious-units"]
+    assert warn and "--units mm" in warn[0].message and "large" in warn[0].message
+
+
+def test_target_records_intake():
+    v, f = saddle(n=11)
+    target, findings = target_from_arrays(v, f, JOB, units=Units.CM)
+    assert target.source_units is Units.CM and target.source == "arrays"
+    # 1 cm = 10 mm (SI definition)
+    assert np.ptp(target.vertices[:, 0]) == pytest.approx(10000.0)
+    assert findings == []  # a 10 m x 10 m grid, nothing merged or dropped
+    assert target.vertex_normals.shape == (121, 3)
+    assert np.allclose(np.linalg.norm(target.vertex_normals, axis=1), 1.0)

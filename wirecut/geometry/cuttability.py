@@ -35,8 +35,9 @@ Wire reach (per vertex, mm)
     Every reach is capped at the surface's extent (the diagonal of its bounding box).
 
 Undercut (per vertex)
-    The area-weighted normal looks away from the waste direction ``w`` (``n . w <= 0``), or the
-    ray from the vertex toward ``w`` meets the target again. That ray is parallel to ``w``, so it
+    The area-weighted normal looks away from the waste direction ``w`` (``n . w < -1e-9``; a
+    vertical wall, ``n . w = 0``, is cut by a wire moving straight along it), or the ray from the
+    vertex toward ``w`` meets the target again. That ray is parallel to ``w``, so it
     is cast exactly as a point-in-triangle test in plan view, with triangles bucketed on a grid:
     a triangle whose plan projection holds the vertex and whose height there exceeds the vertex's
     by more than ``1e-6`` of the extent occludes it. Every vertex is tested.
@@ -71,6 +72,7 @@ DEVELOPABLE, RULED, SYNCLASTIC = 0, 1, 2
 MAX_MARCHED = 2000
 _STEPS = 128  # samples per side of a marched line at most
 _BATCH = 128  # marched lines per vectorized batch
+_VERTICAL = 1e-9  # |n . w| below this is a vertical wall, not an undercut
 _BLOCK = 16  # samples per line marched before checking which lines go on
 
 
@@ -290,7 +292,7 @@ def analyse_surface(target: TargetSurface, job: JobProfile) -> SurfaceAnalysis:
         direction[edge_v] = direction[src]
 
     w = target.waste_normal
-    undercut = (target.vertex_normals @ w <= 0.0) | occluded_vertices(target)
+    undercut = (target.vertex_normals @ w < -_VERTICAL) | occluded_vertices(target)
     return SurfaceAnalysis(
         curvature=cu,
         kind=kind,
