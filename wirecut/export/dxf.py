@@ -8,7 +8,7 @@ One drawing (millimetres, ``$INSUNITS = 4``) with three areas side by side in mo
   of the left and right end faces) as open polylines on ``<id>_FACE_LEFT`` and
   ``<id>_FACE_RIGHT``, each inside the block's end-face rectangle (closed, ``<id>_BLOCK``),
   left face then right face, pieces one after another along x;
-* **nesting** (right of the plan): each raw block in plan (length x width) and elevation (length
+* **nesting** (right of the plan and the end faces): each raw block in plan (length x width) and elevation (length
   x height) as closed rectangles on ``NEST_STOCK``, its blanks as closed rectangles on
   ``NEST_BLANK``, labelled on ``LABELS``.
 
@@ -128,7 +128,7 @@ def build_dxf(pieces: Sequence[Piece], allocation: Allocation | None):
 
     # --- nesting, right of the plan
     if allocation is not None:
-        nx = float(pmax[0]) + 2 * _GAP
+        nx = max(float(pmax[0]), x) + 2 * _GAP  # right of both the plan and the end faces
         ny = float(pmax[1])
         for blk in allocation.blocks:
             length, width, height = (float(v) for v in blk.size_mm)
