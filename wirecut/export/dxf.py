@@ -8,9 +8,9 @@ One drawing (millimetres, ``$INSUNITS = 4``) with three areas side by side in mo
   of the left and right end faces) as open polylines on ``<id>_FACE_LEFT`` and
   ``<id>_FACE_RIGHT``, each inside the block's end-face rectangle (closed, ``<id>_BLOCK``),
   left face then right face, pieces one after another along x;
-* **nesting** (right of the plan and the end faces): each raw block in plan (length x width) and elevation (length
-  x height) as closed rectangles on ``NEST_STOCK``, its blanks as closed rectangles on
-  ``NEST_BLANK``, labelled on ``LABELS``.
+* **nesting** (right of the plan and the end faces): each raw block in plan (length x width)
+  and elevation (length x height) as closed rectangles on ``NEST_STOCK``, its blanks as closed
+  rectangles on ``NEST_BLANK``, labelled on ``LABELS``.
 
 The output is byte-for-byte repeatable: ezdxf's fixed-metadata switch pins ``$TDCREATE``,
 ``$TDUPDATE``, ``$FINGERPRINTGUID`` and ``$VERSIONGUID`` while the file is written, and
