@@ -186,3 +186,19 @@ def test_tiny_mesh_without_interior_vertices():
     assert js["developable_area_fraction"] == 1.0
     # a straight wire across an 800 x 600 plane is at most its 1000 mm diagonal (Pythagoras)
     assert (an.wire_reach_mm <= 1000.0 + 1e-9).all() and (an.wire_reach_mm >= 600.0 - 10).all()
+
+
+def test_first_hit_faces_sees_the_upper_layer():
+    from wirecut.geometry.cuttability import first_hit_faces
+
+    # two horizontal squares, z = 0 (faces 0, 1) and z = 100 over a smaller plan (faces 2, 3)
+    low = np.array([[0, 0, 0], [1000, 0, 0], [1000, 1000, 0], [0, 1000, 0]], float)
+    high = np.array([[250, 250, 100], [750, 250, 100], [750, 750, 100], [250, 750, 100]], float)
+    f = np.array([[0, 1, 2], [0, 2, 3], [4, 5, 6], [4, 6, 7]])
+    target, _ = target_from_arrays(np.vstack([low, high]), f, JOB)
+    pts = np.array([[500.0, 400.0], [100.0, 100.0], [2000.0, 0.0]])
+    hit = first_hit_faces(target, pts)
+    # a ray coming down from above meets the higher square first (by construction)
+    assert target.vertices[target.faces[hit[0]], 2].min() == 100.0
+    assert target.vertices[target.faces[hit[1]], 2].max() == 0.0
+    assert hit[2] == -1

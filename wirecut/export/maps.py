@@ -5,6 +5,11 @@ Both are drawn with matplotlib's Agg canvas on a private :class:`~matplotlib.fig
 plane perpendicular to ``mold.up``). The PNGs carry no timestamp or software tag, so the same
 input gives the same bytes.
 
+Each panel is a plan raster (560 pixels along the longer side): every pixel shows the face a
+ray from the waste side meets first (exact point-in-triangle casting,
+:func:`wirecut.geometry.cuttability.first_hit_faces`), so overhangs show as the wire sees them
+and the cost does not grow with the triangle count beyond one lookup per pixel.
+
 Palette of the classes (chosen for this project to differ in lightness as well as hue, so they
 stay apart under the common colour-vision deficiencies and in grey print): developable deep blue,
 ruled light amber, synclastic mid raspberry. Wire reach uses matplotlib's ``cividis`` (designed
@@ -18,7 +23,13 @@ from pathlib import Path
 import numpy as np
 
 from wirecut.config import ToleranceSpec
-from wirecut.geometry.cuttability import DEVELOPABLE, RULED, SYNCLASTIC, SurfaceAnalysis
+from wirecut.geometry.cuttability import (
+    DEVELOPABLE,
+    RULED,
+    SYNCLASTIC,
+    SurfaceAnalysis,
+    first_hit_faces,
+)
 from wirecut.geometry.frames import plan_basis, to_plan
 from wirecut.geometry.mesh import TargetSurface
 
@@ -38,7 +49,7 @@ _CLASS_NAMES = {
     SYNCLASTIC: "synclastic (K > 0)",
 }
 _DPI = 110
-_MAX_DRAWN_FACES = 400_000  # larger meshes are drawn from a deterministic face subset
+_RASTER = 560  # pixels along the longer side of the plan raster of each panel
 
 
 def scale_bar_length(width_mm: float) -> float:
@@ -69,14 +80,6 @@ def _save(fig, path: Path) -> None:
 
     FigureCanvasAgg(fig)
     fig.savefig(str(path), dpi=_DPI, metadata={"Software": None}, format="png")
-
-
-def _drawn_faces(faces: np.ndarray) -> np.ndarray:
-    """Indices of the faces to draw (all, or every k-th of a very large mesh)."""
-    m = len(faces)
-    if m <= _MAX_DRAWN_FACES:
-        return np.arange(m)
-    return np.linspace(0, m - 1, _MAX_DRAWN_FACES).astype(np.int64)
 
 
 def _decorate(ax, plan: np.ndarray, up: np.ndarray) -> None:
@@ -146,7 +149,6 @@ def write_cuttability_map(
     from matplotlib.colors import BoundaryNorm, ListedColormap
     from matplotlib.figure import Figure
     from matplotlib.patches import Patch
-    from matplotlib.tri import Triangulation
 
     if isinstance(tolerance, ToleranceSpec):
         tol_text = f"tolerance {tolerance.surface_mm:g} mm, {tolerance.policy.value}"
@@ -154,33 +156,42 @@ def write_cuttability_map(
         tol_text = f"tolerance {float(tolerance):g} mm"
     path = Path(path_png)
     plan = to_plan(target.vertices, target.up)
-    # draw the faces lowest first, so that what a wire from above meets lies on top
-    pick = _drawn_faces(target.faces)
-    faces = target.faces[pick]
-    height = (target.vertices @ target.waste_normal)[faces].mean(axis=1)
-    faces = faces[np.argsort(height, kind="stable")]
-    tri = Triangulation(plan[:, 0], plan[:, 1], faces)
+    # a plan raster of what a wire from the waste side meets first (exact ray casting per pixel)
+    lo, hi = plan.min(axis=0), plan.max(axis=0)
+    span = np.maximum(hi - lo, 1e-9)
+    nx = _RASTER
+    ny = int(np.clip(round(_RASTER * span[1] / span[0]), 2, _RASTER))
+    if span[1] > span[0]:
+        ny, nx = _RASTER, int(np.clip(round(_RASTER * span[0] / span[1]), 2, _RASTER))
+    xs = lo[0] + (np.arange(nx) + 0.5) * span[0] / nx
+    ys = lo[1] + (np.arange(ny) + 0.5) * span[1] / ny
+    gx, gy = np.meshgrid(xs, ys)
+    face = first_hit_faces(target, np.column_stack([gx.ravel(), gy.ravel()])).reshape(ny, nx)
+    empty = face < 0
+    fidx = np.where(empty, 0, face)
 
-    kinds = analysis.kind[faces]
+    kinds = analysis.kind[target.faces]
     votes = np.stack([(kinds == c).sum(axis=1) for c in (DEVELOPABLE, RULED, SYNCLASTIC)], axis=1)
-    face_kind = np.argmax(votes, axis=1).astype(float)
-    reach = analysis.wire_reach_mm[faces].mean(axis=1)
-    under = analysis.undercut.astype(float)
+    face_kind = np.argmax(votes, axis=1)
+    face_reach = analysis.wire_reach_mm[target.faces].mean(axis=1)
+    face_under = analysis.undercut[target.faces].sum(axis=1) >= 2
 
     fig = Figure(figsize=(13.0, 6.4), layout="constrained")
     axes = fig.subplots(1, 2)
     cmap = ListedColormap([CLASS_COLOURS[c] for c in (DEVELOPABLE, RULED, SYNCLASTIC)])
     norm = BoundaryNorm([-0.5, 0.5, 1.5, 2.5], 3)
-    axes[0].tripcolor(tri, facecolors=face_kind, cmap=cmap, norm=norm, rasterized=True)
-    top = float(max(analysis.extent_mm, 1.0))
-    pc = axes[1].tripcolor(
-        tri, facecolors=reach, cmap="cividis", vmin=0.0, vmax=top, rasterized=True
+    extent = (lo[0], hi[0], lo[1], hi[1])
+    style = {"origin": "lower", "extent": extent, "interpolation": "nearest", "aspect": "equal"}
+    axes[0].imshow(np.ma.masked_array(face_kind[fidx], empty), cmap=cmap, norm=norm, **style)
+    top = float(max(analysis.wire_reach_mm.max(), 1.0))
+    pc = axes[1].imshow(
+        np.ma.masked_array(face_reach[fidx], empty), cmap="cividis", vmin=0.0, vmax=top, **style
     )
     handles = [Patch(color=CLASS_COLOURS[c], label=_CLASS_NAMES[c]) for c in CLASS_COLOURS]
+    under = (face_under[fidx] & ~empty).astype(float)
     if under.any():
-        full = Triangulation(plan[:, 0], plan[:, 1], target.faces)
         for ax in axes:
-            ax.tricontourf(full, under, levels=[0.5, 1.5], colors="none", hatches=["////"])
+            ax.contourf(gx, gy, under, levels=[0.5, 1.5], colors="none", hatches=["////"])
         handles.append(Patch(facecolor="white", edgecolor="black", hatch="////", label="undercut"))
     axes[0].legend(
         handles=handles,
@@ -192,9 +203,10 @@ def write_cuttability_map(
     )
     bar = fig.colorbar(pc, ax=axes[1], shrink=0.8)
     bar.set_label("wire reach, mm")
-    axes[0].set_title("surface class")
+    axes[0].set_title("surface class (as seen from the waste side)")
     axes[1].set_title(
-        f"wire reach (longest straight wire within tolerance, at most {top:.0f} mm)", fontsize=10
+        f"wire reach: longest straight wire within tolerance (cap {analysis.extent_mm:.0f} mm)",
+        fontsize=10,
     )
     for ax in axes:
         _decorate(ax, plan, target.up)
