@@ -48,7 +48,7 @@ from scipy.sparse.linalg import spsolve
 
 from wirecut.config import Policy, ToleranceSpec
 from wirecut.errors import JobError
-from wirecut.ruled.deviation import DeviationReport, signed_deviation
+from wirecut.ruled.deviation import DeviationReport, evaluate_cut, signed_deviation
 from wirecut.ruled.model import RuledCut
 from wirecut.ruled.sampling import TargetSamples
 
@@ -57,6 +57,7 @@ __all__ = ["RuledFit", "fit_cut", "estimate_sweep_curvature", "ruling_spacing_fo
 _SMOOTH = 1e-3  # relative weight of the second-difference smoothing rows
 _LP_ROUNDS = 12
 _T_SLABS = 8
+_LP_ADD = 400  # besides the per-cell extremes, the worst violators added per LP round
 _MAX_LSQ_SAMPLES = 8_000
 _LM_STEPS = 40
 _SCAN_CANDIDATES = 61
@@ -215,44 +216,62 @@ def _extremes_per_cell(cell: np.ndarray, r: np.ndarray, among: np.ndarray) -> np
 
 
 def _equal_error(a, yt, ny, cell, y0, policy: Policy, tol: float):
-    """Step 2: the min-max LP with constraint generation. Returns (y, eps, rounds)."""
+    """Step 2: the min-max LP with constraint generation. Returns (y, eps, rounds).
+
+    Variables: the 2K heights, one local bound e_j per strip and the global bound E >= e_j.
+    Objective ``M E + sum_j e_j`` (M = number of strips): the global maximum first, then every
+    strip's own maximum, which removes the freedom a pure min-max leaves to strips that do
+    not bind (they would otherwise float anywhere under E and violate unseen samples).
+    """
     n, nv = a.shape
+    strips = cell // _T_SLABS
+    ns = int(strips.max()) + 1 if n else 1
     used = np.asarray(abs(a).sum(axis=0)).ravel() > 0
     r0 = ny * (a @ y0 - yt)
     spread = float(np.abs(r0).max()) if n else 0.0
     box = 4.0 * spread + 2.0 * tol + 1.0
     lb = np.where(used, y0 - box, y0)
     ub = np.where(used, y0 + box, y0)
-    bounds = list(zip(lb, ub, strict=True)) + [(0.0, None)]
-    cost = np.zeros(nv + 1)
-    cost[-1] = 1.0
+    bounds = list(zip(lb, ub, strict=True)) + [(0.0, None)] * (ns + 1)
+    cost = np.concatenate([np.zeros(nv), np.ones(ns), [float(ns)]])
+    # E >= e_j
+    cap = sp.hstack([sp.csr_matrix((ns, nv)), sp.eye(ns), -np.ones((ns, 1))]).tocsr()
     work = _extremes_per_cell(cell, r0, np.ones(n, bool))
     y, eps = y0, spread
-    slack = 1e-6 + 1e-6 * tol
+    local = np.full(ns, spread)
+    slack = 1e-7 + 1e-4 * tol
     rounds = 0
     while rounds < _LP_ROUNDS:
         rounds += 1
+        m = len(work)
         aw = sp.diags(ny[work]) @ a[work]
         bw = ny[work] * yt[work]
-        one = sp.csr_matrix(np.ones((len(work), 1)))
+        pick = sp.csr_matrix((np.ones(m), (np.arange(m), strips[work])), shape=(m, ns))
+        zero = sp.csr_matrix((m, ns + 1))
+        tail = sp.hstack([pick, sp.csr_matrix((m, 1))])
         if policy is Policy.NO_GOUGE:
-            # excess = aw y - bw <= eps ; gouge: -(aw y - bw) <= 0
-            a_ub = sp.vstack([sp.hstack([aw, -one]), sp.hstack([-aw, 0 * one])])
+            # excess = aw y - bw <= e_j ; no gouge: -(aw y - bw) <= 0
+            rows = [sp.hstack([aw, -tail]), sp.hstack([-aw, zero])]
         else:
-            a_ub = sp.vstack([sp.hstack([aw, -one]), sp.hstack([-aw, -one])])
-        b_ub = np.concatenate([bw, -bw])
-        res = linprog(cost, A_ub=a_ub.tocsr(), b_ub=b_ub, bounds=bounds, method="highs")
+            rows = [sp.hstack([aw, -tail]), sp.hstack([-aw, -tail])]
+        a_ub = sp.vstack([*rows, cap]).tocsr()
+        b_ub = np.concatenate([bw, -bw, np.zeros(ns)])
+        res = linprog(cost, A_ub=a_ub, b_ub=b_ub, bounds=bounds, method="highs")
         if res.status != 0 or res.x is None:
             break
-        y, eps = res.x[:nv], float(res.x[-1])
+        y, local, eps = res.x[:nv], res.x[nv : nv + ns], float(res.x[-1])
         r = ny * (a @ y - yt)
+        limit = local[strips] + slack
         if policy is Policy.NO_GOUGE:
-            bad = (r > eps + slack) | (r < -slack)
+            bad = (r > limit) | (r < -slack)
+            over = np.maximum(r - limit, -r)
         else:
-            bad = np.abs(r) > eps + slack
+            bad = np.abs(r) > limit
+            over = np.abs(r) - limit
         if not bad.any():
             break
-        work = np.union1d(work, _extremes_per_cell(cell, r, bad))
+        worst = np.flatnonzero(bad)[np.argsort(-over[bad], kind="stable")[:_LP_ADD]]
+        work = np.union1d(work, np.concatenate([_extremes_per_cell(cell, r, bad), worst]))
     return y, eps, rounds
 
 
@@ -590,8 +609,17 @@ def fit_cut(
         a, _ = _design(flat, x, z)
         y1 = _least_squares_heights(a, yt, c, k) if y_start is None else y_start
         j, _, t, _ = flat.strip_of(x, z)
-        y2, eps, rounds = _equal_error(a, yt, ny_t, _cells(j, t), y1, policy, tol)
+        cells = _cells(j, t)
+        y2, eps, rounds = _equal_error(a, yt, ny_t, cells, y1, policy, tol)
         cut = _cut(knots - s / 2, knots + s / 2, y2[:k], y2[k:], z_left, z_right, part_to_machine)
+        ny_cut = evaluate_cut(cut, x, z).normal_y
+        if np.max(np.abs(ny_cut - ny_t)) > 1e-2:
+            # the deviation is measured along the cut's normal: solve again with it
+            y2, eps, more = _equal_error(a, yt, ny_cut, cells, y2, policy, tol)
+            rounds += more
+            cut = _cut(
+                knots - s / 2, knots + s / 2, y2[:k], y2[k:], z_left, z_right, part_to_machine
+            )
         return cut, eps, rounds, y1
 
     s_zero = np.zeros(k)
