@@ -1,0 +1,117 @@
+"""Wire direction search and the rationalized-surface outputs."""
+
+from __future__ import annotations
+
+import hashlib
+
+import numpy as np
+import pytest
+import trimesh
+from ruled_shapes import grid_target
+
+from wirecut.config import JobProfile, MoldSide, ToleranceSpec
+from wirecut.export.rational import (
+    deviation_colors,
+    rational_mesh,
+    write_deviation_map,
+    write_rational_mesh,
+)
+from wirecut.geometry.frames import DirectionFrame, rigid
+from wirecut.ruled.direction import search_direction
+from wirecut.ruled.fit import fit_cut
+from wirecut.ruled.sampling import sample_target
+
+UP = np.array([0.0, 0.0, 1.0])
+
+
+def _cylinder(axis_deg: float, radius: float = 900.0):
+    th = np.radians(axis_deg)
+
+    def f(x, y):
+        v = -np.sin(th) * (x - 300.0) + np.cos(th) * (y - 300.0)  # distance across the axis
+        return np.sqrt(radius**2 - v**2)
+
+    g = np.linspace(0.0, 600.0, 61)
+    return grid_target(f, g, g)
+
+
+@pytest.mark.parametrize("axis_deg", [30.0, 120.0])
+def test_cylinder_direction_is_its_axis(axis_deg):
+    # a cylinder is ruled along its axis only (standard): the wire must follow it
+    target = _cylinder(axis_deg)
+    choice = search_direction(target, None, JobProfile())
+    got = np.degrees(choice.best.angle_rad)
+    assert abs((got - axis_deg + 90.0) % 180.0 - 90.0) < 1e-6
+    assert choice.score["feasible_area_fraction"] == pytest.approx(1.0)
+    assert choice.runner_up is not None
+    gap = abs((np.degrees(choice.runner_up.angle_rad) - axis_deg + 90.0) % 180.0 - 90.0)
+    assert gap >= 10.0
+    assert "runner-up" in choice.reason
+    assert len(choice.table) == 12  # the uniform 15-degree set, no seeds without an analysis
+
+
+def test_given_candidates_and_analysis_seeds():
+    # a hyperbolic paraboloid z = x y / c is ruled along x and along y (standard)
+    g = np.linspace(-200.0, 200.0, 41)
+    target = grid_target(lambda x, y: x * y / 400.0 + 300.0, g, g)
+
+    class Seeds:  # the analysis fields the search reads: one reach direction per vertex
+        reach_direction = np.tile([0.0, 1.0, 0.0], (len(target.vertices), 1))
+        wire_reach_mm = np.full(len(target.vertices), 400.0)
+        vertex_area = np.ones(len(target.vertices))
+
+    choice = search_direction(target, Seeds(), JobProfile(), candidates=[np.radians(40.0)])
+    angles = sorted(r["angle_deg"] for r in choice.table)
+    assert len(angles) == 2 and abs(angles[0] - 40.0) < 1e-6
+    assert abs(np.degrees(choice.best.angle_rad) - 90.0) < 3.0  # the seeded ruling (5-deg bin)
+    assert choice.table[0]["source"] == "reach"
+
+
+def _piece_fit(target, angle_deg=0.0):
+    frame = DirectionFrame.from_angle(np.radians(angle_deg), UP, MoldSide.BELOW)
+    m = rigid(frame.rotation, np.array([0.0, 0.0, 500.0]))
+    s = sample_target(target, m, spacing_mm=10.0)
+    z = s.points[:, 2]
+    return fit_cut(s, float(z.min()), float(z.max()), m, ToleranceSpec(0.5)), m
+
+
+def test_rational_mesh_is_in_the_part_frame_and_carries_the_deviation(tmp_path):
+    target = _cylinder(0.0)
+    fit, m = _piece_fit(target)
+    mesh = rational_mesh([(fit, m)], tolerance_mm=0.5)
+    # the cut of an exact cylinder lies on the cylinder (in the part frame): every vertex
+    # inside the target's plan extent is within the fit's max deviation of it
+    v = mesh.vertices
+    inside = (v[:, 0] > 0) & (v[:, 0] < 600) & (v[:, 1] > 0) & (v[:, 1] < 600)
+    radial = np.sqrt((v[inside, 1] - 300.0) ** 2 + v[inside, 2] ** 2)
+    assert np.abs(radial - 900.0).max() <= fit.report.max_abs_mm + 0.05
+    assert mesh.vertex_attributes["deviation_mm"].shape == (len(v),)
+    p1 = write_rational_mesh(mesh, tmp_path / "a.ply")
+    p2 = write_rational_mesh(mesh, tmp_path / "b.ply")
+    assert p1.read_bytes() == p2.read_bytes()  # deterministic
+    back = trimesh.load(p1, process=False)  # trimesh's PLY reader
+    assert len(back.vertices) == len(v)
+    assert "deviation_mm" in back.metadata["_ply_raw"]["vertex"]["data"].dtype.names
+    for ext in ("stl", "obj"):
+        out = write_rational_mesh(mesh, tmp_path / f"c.{ext}")
+        assert len(trimesh.load(out, process=False).faces) == len(mesh.faces)
+
+
+def test_colour_ramp_ends_and_middle():
+    c = deviation_colors(np.array([-1.0, 0.0, 1.0, np.nan]), 0.5)
+    assert c[0, 2] > c[0, 0]  # gouge is blue
+    assert c[2, 0] > c[2, 2]  # excess is red
+    assert (c[1, :3] > 240).all()  # zero is near white
+    assert (c[3, :3] == 128).all()  # unknown is grey
+
+
+def test_deviation_map_is_a_deterministic_png(tmp_path):
+    rng = np.random.default_rng(0)
+    xy = rng.uniform(0, 500, (2000, 2))
+    d = rng.normal(0, 0.2, 2000)
+    out = [np.array([[0, 0], [500, 0], [500, 500], [0, 500]], float)]
+    a = write_deviation_map(xy, d, 0.5, tmp_path / "a.png", outlines=out)
+    b = write_deviation_map(xy, d, 0.5, tmp_path / "b.png", outlines=out)
+    head = a.read_bytes()[:8]
+    assert head == b"\x89PNG\r\n\x1a\n"  # PNG signature (PNG specification)
+    assert hashlib.sha256(a.read_bytes()).digest() == hashlib.sha256(b.read_bytes()).digest()
