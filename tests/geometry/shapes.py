@@ -5,7 +5,16 @@ from __future__ import annotations
 import numpy as np
 import trimesh
 
-__all__ = ["grid_faces", "graph_surface", "saddle", "sphere_cap", "cylinder", "cone", "icosphere"]
+__all__ = [
+    "grid_faces",
+    "graph_surface",
+    "jittered_graph",
+    "saddle",
+    "sphere_cap",
+    "cylinder",
+    "cone",
+    "icosphere",
+]
 
 
 def grid_faces(nu: int, nv: int) -> np.ndarray:
@@ -56,3 +65,20 @@ def icosphere(radius: float, subdivisions: int):
     """Closed icosphere (trimesh.creation.icosphere) scaled to ``radius``."""
     m = trimesh.creation.icosphere(subdivisions=subdivisions, radius=radius)
     return np.asarray(m.vertices), np.asarray(m.faces)
+
+
+def jittered_graph(fn, half_x: float, half_y: float, nx: int, ny: int, seed: int = 3):
+    """z = fn(x, y) on a grid whose interior vertices are shifted in plan by a seeded jitter of
+    up to 0.3 grid steps, triangulated by Delaunay in plan (irregular, every vertex on the
+    surface)."""
+    from scipy.spatial import Delaunay
+
+    x, y = np.meshgrid(np.linspace(-half_x, half_x, nx), np.linspace(-half_y, half_y, ny))
+    dx, dy = 2 * half_x / (nx - 1), 2 * half_y / (ny - 1)
+    rng = np.random.default_rng(seed)
+    inner = (np.abs(x) < half_x - 1e-9) & (np.abs(y) < half_y - 1e-9)
+    x = x + inner * rng.uniform(-0.3, 0.3, x.shape) * dx
+    y = y + inner * rng.uniform(-0.3, 0.3, y.shape) * dy
+    xy = np.column_stack([x.ravel(), y.ravel()])
+    faces = Delaunay(xy).simplices
+    return np.column_stack([xy, fn(xy[:, 0], xy[:, 1])]), faces

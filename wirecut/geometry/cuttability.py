@@ -6,8 +6,9 @@ Classes (per vertex, ``kind``)
     ``k_min L^2 / 8`` within the allowed error ``s`` over the characteristic length
     ``L = min(span - 2 face_to_tower, surface extent)``: ``k_min <= 8 s / L^2``;
     1 ruled: ``K < 0`` (two asymptotic directions: a straight line lies in the surface to first
-    order); 2 synclastic: ``K > 0``. ``K`` is the angle-defect curvature at interior vertices and
-    ``k1 k2`` of the fit on the boundary (used only when the mesh has no interior vertex).
+    order); 2 synclastic: ``K > 0``. ``K`` here is the 2-ring patch curvature
+    (``Curvature.gaussian_patch``, the Gauss-Bonnet integral over the patch), or ``k1 k2`` of the
+    fit when the patch holds no interior vertex.
     Boundary vertices take the class, reach and direction of the nearest interior vertex.
 
 Allowed error ``s`` of a straight line against the surface, by policy
@@ -231,7 +232,7 @@ def analyse_surface(target: TargetSurface, job: JobProfile) -> SurfaceAnalysis:
     limit = 8.0 * s / length**2
 
     k_big = np.maximum(np.abs(cu.k1), np.abs(cu.k2))
-    k_prod = np.where(cu.interior, cu.gaussian, cu.k1 * cu.k2)
+    k_prod = np.where(np.isfinite(cu.gaussian_patch), cu.gaussian_patch, cu.k1 * cu.k2)
     with np.errstate(divide="ignore", invalid="ignore"):
         k_min = np.where(k_big > 0, np.abs(k_prod) / k_big, 0.0)
     kind = np.where(k_prod < 0, RULED, SYNCLASTIC).astype(np.int8)
