@@ -339,11 +339,12 @@ def build_program(
     kerf_r = kerf_mm(timing.right_speed_mm_s[cut_moves], wire)
     if check.ok or check.fixable:
         header = (
-            ("piece", piece.id),
-            ("stock", str(piece.stock or "")),
+            ("stock", str(piece.stock or "-")),
             ("block x mm", f"{block.x_mm[0] + shift:.3f} {block.x_mm[1] + shift:.3f}"),
             ("block y mm", f"{block.y_mm[0]:.3f} {block.y_mm[1]:.3f}"),
             ("block faces z mm", f"{z_l:.3f} {z_r:.3f}"),
+            ("faces from left and right tower mm", f"{z_l:.3f} {machine.span_mm - z_r:.3f}"),
+            ("blank size mm", " x ".join(f"{v:.1f}" for v in block.size_mm)),
             ("kerf left mm", f"{kerf_l.min():.3f}-{kerf_l.max():.3f}"),
             ("kerf right mm", f"{kerf_r.min():.3f}-{kerf_r.max():.3f}"),
             ("shift x mm", f"{shift:.3f}"),
