@@ -205,3 +205,24 @@ def test_target_records_intake():
     assert findings == []  # a 10 m x 10 m grid, nothing merged or dropped
     assert target.vertex_normals.shape == (121, 3)
     assert np.allclose(np.linalg.norm(target.vertex_normals, axis=1), 1.0)
+
+
+@pytest.mark.parametrize("suffix", [".stl", ".obj", ".ply", ".off", ".glb"])
+@pytest.mark.parametrize("kind", ["random", "text", "header-only"])
+def test_every_format_refuses_garbage(tmp_path, suffix, kind):
+    headers = {
+        ".stl": b"solid a\n",
+        ".obj": b"# only a comment\n",
+        ".ply": b"ply\nformat ascii 1.0\nelement vertex 3\n",
+        ".off": b"OFF\n3 1 0\n0 0 0\n",
+        ".glb": b"glTF\x02\x00\x00\x00",
+    }
+    data = {
+        "random": np.random.default_rng(5).bytes(2000),
+        "text": b"hello world\n" * 10,
+        "header-only": headers[suffix],
+    }[kind]
+    path = tmp_path / f"{kind}{suffix}"
+    path.write_bytes(data)
+    with pytest.raises(MeshError, match=path.name):
+        load_target(path, JOB)

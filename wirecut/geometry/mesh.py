@@ -246,9 +246,10 @@ def _read_arrays(path: Path) -> tuple[np.ndarray, np.ndarray]:
     try:
         loaded = trimesh.load(str(path), file_type=SUPPORTED_SUFFIXES[suffix], process=False)
     except Exception as exc:  # trimesh raises many kinds on garbage; none may escape
+        detail = "" if isinstance(exc, ImportError) else f" ({exc.__class__.__name__})"
         raise MeshError(
-            f"mesh file {name} is unreadable, truncated or not a {suffix[1:].upper()} mesh "
-            f"({exc.__class__.__name__})"
+            f"mesh file {name} is unreadable, truncated or not a valid {suffix[1:].upper()} "
+            f"file{detail}"
         ) from None
     try:
         if isinstance(loaded, trimesh.Scene):
