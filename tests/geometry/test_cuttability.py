@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 from shapes import cone, cylinder, grid_faces, icosphere, saddle, sphere_cap
 
-from wirecut.config import Policy, default_job
+from wirecut.config import MoldSide, Policy, default_job
 from wirecut.geometry.cuttability import (
     DEVELOPABLE,
     RULED,
@@ -202,3 +202,24 @@ def test_first_hit_faces_sees_the_upper_layer():
     assert target.vertices[target.faces[hit[0]], 2].min() == 100.0
     assert target.vertices[target.faces[hit[1]], 2].max() == 0.0
     assert hit[2] == -1
+
+
+def test_results_do_not_depend_on_the_part_frame():
+    # rigid motions preserve curvature and lengths (do Carmo 3-3): turn the part so that its up
+    # is part +y, or turn it over and keep the foam above (counter-mold); same analysis
+    from scipy.spatial.transform import Rotation
+
+    v, f = sphere_cap(800.0, 240.0, 41)
+    base = _analyse(v, f)[1].to_json()
+    rot = Rotation.from_euler("x", -90, degrees=True)  # +z -> +y
+    job_y = dataclasses.replace(JOB, mold=dataclasses.replace(JOB.mold, up=(0.0, 1.0, 0.0)))
+    turned = _analyse(rot.apply(v), f, job_y)[1].to_json()
+    flip = v * np.array([1.0, 1.0, -1.0])  # mirror: the cap now bulges down
+    job_above = dataclasses.replace(JOB, mold=dataclasses.replace(JOB.mold, side=MoldSide.ABOVE))
+    above = _analyse(flip, f, job_above)[1].to_json()
+    for other in (turned, above):
+        assert other["synclastic_area_fraction"] == pytest.approx(1.0)
+        assert other["target_area_mm2"] == pytest.approx(base["target_area_mm2"], rel=1e-9)
+        for q in ("p05", "median", "p95"):
+            assert other["wire_reach_mm"][q] == pytest.approx(base["wire_reach_mm"][q], rel=1e-3)
+        assert other["undercut_area_fraction"] == 0.0
