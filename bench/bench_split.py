@@ -70,23 +70,23 @@ def run(length: float, width: float, triangles: int, job: JobProfile) -> dict:
 def main() -> None:
     quick = "--quick" in sys.argv
     job = replace(JobProfile(), stock=(StockSpec("long", (4000.0, 1200.0, 1000.0), 200),))
-    rows = []
-    sizes = [25_000, 100_000] if quick else [25_000, 100_000, 400_000]
-    for n in sizes:
-        rows.append(run(6000.0, 3000.0, n, job))
-    if not quick:
-        # growing area at the density of the 400k panel (22 triangles per 1000 mm^2)
-        for scale in (0.25, 0.5):
-            side = math.sqrt(scale)
-            n = int(400_000 * scale)
-            rows.append(run(6000.0 * side, 3000.0 * side, n, job))
     head = f"{'area m2':>8} {'triangles':>10} {'pieces':>6} {'blocks':>6} {'max dev':>8} "
     head += f"{'split s':>8} {'alloc s':>8} {'peak MB':>8}"
-    print(head)
-    for r in rows:
+    print(head, flush=True)
+    cases = [
+        (6000.0, 3000.0, n) for n in ([25_000, 100_000] if quick else [25_000, 100_000, 400_000])
+    ]
+    if not quick:
+        # growing area at the density of the 400k panel
+        for scale in (0.25, 0.5):
+            side = math.sqrt(scale)
+            cases.append((6000.0 * side, 3000.0 * side, int(400_000 * scale)))
+    for length, width, n in cases:
+        r = run(length, width, n, job)
         print(
             f"{r['area_m2']:8.2f} {r['triangles']:10d} {r['pieces']:6d} {r['blocks']:6d} "
-            f"{r['max_dev']:8.3f} {r['split_s']:8.1f} {r['alloc_s']:8.2f} {r['peak_mb']:8.0f}"
+            f"{r['max_dev']:8.3f} {r['split_s']:8.1f} {r['alloc_s']:8.2f} {r['peak_mb']:8.0f}",
+            flush=True,
         )
 
 
