@@ -223,3 +223,15 @@ def test_results_do_not_depend_on_the_part_frame():
         for q in ("p05", "median", "p95"):
             assert other["wire_reach_mm"][q] == pytest.approx(base["wire_reach_mm"][q], rel=1e-3)
         assert other["undercut_area_fraction"] == 0.0
+
+
+def test_flat_square_reach_is_the_longest_chord():
+    from shapes import graph_surface
+
+    target, an = _analyse(*graph_surface(lambda x, y: 0.0 * x, 400.0, 41))
+    assert (an.kind == DEVELOPABLE).all()
+    centre = np.argmin(np.linalg.norm(target.vertices, axis=1))
+    # through the centre of an 800 mm square the longest chord is its diagonal, 800 sqrt 2
+    # (Pythagoras); every chord through a point of the square is at least the side, 800 mm
+    assert an.wire_reach_mm[centre] == pytest.approx(800 * np.sqrt(2), rel=0.03)
+    assert an.wire_reach_mm.min() >= 800 * 0.97

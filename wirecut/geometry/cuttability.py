@@ -32,7 +32,8 @@ Wire reach (per vertex, mm)
     Marching runs on at most 2000 interior vertices chosen deterministically (the lowest-index
     candidate per cell of a plan grid); the others (boundary vertices included) take the reach of
     the nearest marched vertex and their own direction most parallel to its direction.
-    Developable points march along their least-curved principal direction only (the ruling).
+    Developable points march along their least-curved principal direction only (the ruling);
+    flat points (both curvatures under the limit) also along the plan axes and diagonals.
     Every reach is capped at the surface's extent (the diagonal of its bounding box).
 
 Undercut (per vertex)
@@ -53,7 +54,7 @@ from scipy.spatial import cKDTree
 
 from wirecut.config import JobProfile, Policy
 from wirecut.geometry.curvature import Curvature, vertex_curvature
-from wirecut.geometry.frames import to_plan
+from wirecut.geometry.frames import plan_basis, to_plan
 from wirecut.geometry.mesh import TargetSurface, edge_use
 
 __all__ = [
@@ -248,7 +249,8 @@ def analyse_surface(target: TargetSurface, job: JobProfile) -> SurfaceAnalysis:
         # march from interior vertices (one-sided boundary fits give poorer directions)
         inner = cand[cu.interior[cand]]
         pick = _deterministic_subsample(target, inner if inner.size else cand, MAX_MARCHED)
-        options = _direction_options(cu, least)
+        flat = k_big <= limit
+        options = _direction_options(cu, least, target.up, flat)
         # a developable point marches along its ruling: asymptotic directions of a nearly
         # zero k1 k2 lean off the ruling by atan(sqrt(|k_small / k_big|))
         options[kind == DEVELOPABLE, :2] = np.nan
@@ -314,9 +316,24 @@ def analyse_surface(target: TargetSurface, job: JobProfile) -> SurfaceAnalysis:
     )
 
 
-def _direction_options(cu: Curvature, least: np.ndarray) -> np.ndarray:
-    """(n, 3, 3): the two asymptotic directions (NaN where none) and the least-curved direction."""
-    return np.concatenate([cu.asymptotic, least[:, None, :]], axis=1)
+def _direction_options(
+    cu: Curvature, least: np.ndarray, up: np.ndarray, flat: np.ndarray
+) -> np.ndarray:
+    """(n, 7, 3) candidate wire directions per vertex, NaN where they do not apply.
+
+    The two asymptotic directions, the least-curved principal direction, and at flat points
+    (both principal curvatures under the developable limit, so every direction is a ruling) the
+    plan axes e1, e2 and their two diagonals laid into the tangent plane, so that a flat region
+    gets its longest chord among five directions and a consistent direction.
+    """
+    e1, e2, _ = plan_basis(up)
+    extra = np.stack([e1, e2, e1 + e2, e1 - e2])  # (4, 3)
+    n = cu.normals
+    t = extra[None, :, :] - np.einsum("kd,jd->kj", n, extra)[:, :, None] * n[:, None, :]
+    norm = np.linalg.norm(t, axis=2, keepdims=True)
+    t = np.where(norm > 1e-6, t / np.where(norm > 0, norm, 1.0), np.nan)
+    t[~flat] = np.nan
+    return np.concatenate([cu.asymptotic, least[:, None, :], t], axis=1)
 
 
 def _deterministic_subsample(target: TargetSurface, cand: np.ndarray, limit: int) -> np.ndarray:
