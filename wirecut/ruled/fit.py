@@ -42,9 +42,10 @@ from dataclasses import dataclass
 
 import numpy as np
 import scipy.sparse as sp
-from scipy.interpolate import LinearNDInterpolator
+from scipy.interpolate import RegularGridInterpolator
 from scipy.optimize import linprog
 from scipy.sparse.linalg import spsolve
+from scipy.spatial import cKDTree
 
 from wirecut.config import Policy, ToleranceSpec
 from wirecut.errors import JobError
@@ -325,15 +326,17 @@ def _track(hi: np.ndarray, lo: np.ndarray, start: float) -> np.ndarray:
     return out
 
 
-def _skew_scan(x, y, z, knots, z_left, z_right, reach) -> np.ndarray:
+def _skew_scan(x, y, z, grad, knots, z_left, z_right, reach) -> np.ndarray:
     """A skew seed (K,) mm by scanning candidate rulings through each knot.
 
-    For each knot and each candidate skew the target height (linear interpolation of the
-    samples over a Delaunay triangulation of their (x, z)) is read at 13 points along the
-    candidate line; the line's cost is the rms of those heights about their least-squares
-    line in t (0 for a straight line lying in the surface). A Viterbi pass (dynamic
-    programming over the knots) picks one candidate per knot with neighbouring skews less than
-    two knot spacings apart (rulings k and k + 1 cross inside the block once
+    The target is resampled on a regular (x, z) grid (a quarter knot spacing by 1/32 of the
+    width): each node takes its nearest sample, moved to the node along the sample's tangent
+    plane (``grad`` (n, 2): dy/dx, dy/dz), and nodes farther than two cells from any sample
+    are left empty. For each knot and each candidate skew, the grid (bilinear) is read at 13
+    points along the candidate line; the line's cost is the rms of those heights about their
+    least-squares line in t (0 for a straight line lying in the surface). A Viterbi pass
+    (dynamic programming over the knots) picks one candidate per knot with neighbouring skews
+    less than two knot spacings apart (rulings k and k + 1 cross inside the block once
     ``|s_{k+1} - s_k| >= 2 dX``), and the tiny cost on skew changes keeps it on one ruling
     family of a doubly ruled surface.
     """
@@ -345,17 +348,20 @@ def _skew_scan(x, y, z, knots, z_left, z_right, reach) -> np.ndarray:
     cand = np.arange(-reach, reach + 0.5 * step, step)
     if len(cand) > _SCAN_CANDIDATES:
         cand = np.linspace(-reach, reach, _SCAN_CANDIDATES)
-    if len(x) > 20_000:
-        keep = np.random.default_rng(1).choice(len(x), 20_000, replace=False)
-        x, y, z = x[keep], y[keep], z[keep]
-    try:
-        interp = LinearNDInterpolator(np.column_stack([x, z]), y)
-    except (ValueError, RuntimeError):  # degenerate (collinear) samples: no scan possible
-        return np.zeros(k)
+    cell_x = max(dx / 4.0, (float(x.max()) - float(x.min())) / 1000.0, 1e-3)
+    gx = np.arange(float(x.min()), float(x.max()) + cell_x, cell_x)
+    gz = np.linspace(z_left, z_right, 33)
+    cell = max(cell_x, float(gz[1] - gz[0]))
+    tree = cKDTree(np.column_stack([x, z]))
+    nx, nz = np.meshgrid(gx, gz, indexing="ij")
+    dist, near = tree.query(np.column_stack([nx.ravel(), nz.ravel()]))
+    val = y[near] + grad[near, 0] * (nx.ravel() - x[near]) + grad[near, 1] * (nz.ravel() - z[near])
+    val = np.where(dist <= 2.0 * cell, val, np.nan).reshape(nx.shape)
+    grid = RegularGridInterpolator((gx, gz), val, bounds_error=False, fill_value=np.nan)
     t = np.linspace(0.0, 1.0, 13)
     xs = knots[:, None, None] + (t[None, None, :] - 0.5) * cand[None, :, None]
     zs = np.broadcast_to(z_left + t * (z_right - z_left), xs.shape)
-    ys = interp(xs.ravel(), zs.ravel()).reshape(xs.shape)
+    ys = grid(np.column_stack([xs.ravel(), zs.ravel()])).reshape(xs.shape)
     ok = np.isfinite(ys)
     cnt = ok.sum(axis=2)
     tt = np.broadcast_to(t, xs.shape)
@@ -632,7 +638,9 @@ def fit_cut(
         end_lb, end_ub = _end_bounds(x, t_all, knots)
         reach = _MAX_SLOPE * width
         end_lb, end_ub = np.maximum(end_lb, -reach), np.minimum(end_ub, reach)
-        scan = _skew_scan(x, yt, z, knots, z_left, z_right, reach)
+        nrm = samples.normals[use]
+        grad = -nrm[:, [0, 2]] / np.maximum(nrm[:, 1:2], 0.05)
+        scan = _skew_scan(x, yt, z, grad, knots, z_left, z_right, reach)
         tried = []
         for m in (s_zero, scan / width, hi, lo):
             s = _monotone_seed(m * width, dx, end_lb, end_ub)
