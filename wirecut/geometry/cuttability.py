@@ -34,6 +34,9 @@ Wire reach (per vertex, mm)
     the nearest marched vertex and their own direction most parallel to its direction.
     Developable points march along their least-curved principal direction only (the ruling);
     flat points (both curvatures under the limit) also along the plan axes and diagonals.
+    A line along an asymptotic direction that drifts off the surface quadratically, as
+    ``alpha s^2``, is turned once by ``2 alpha / k_n'`` (one Newton step onto the asymptotic line,
+    ``k_n' = (k2 - k1) sin 2t`` from Euler's formula) and marched again; the longer run is kept.
     Every reach is capped at the surface's extent (the diagonal of its bounding box).
 
 Undercut (per vertex)
@@ -265,7 +268,18 @@ def analyse_surface(target: TargetSurface, job: JobProfile) -> SurfaceAnalysis:
                 ok &= ~np.isfinite(options[pick, 0]).all(axis=1)
             lens = np.zeros(len(pick))
             if ok.any():
-                lens[ok] = _march(probe, pick[ok], dirs[ok], step, extent, s)
+                lens[ok], alpha = _march(probe, pick[ok], dirs[ok], step, extent, s)
+                if o < 2:
+                    # one Newton step onto the asymptotic line: a line off it by eps lies
+                    # alpha s^2 = -k_n'(t) eps s^2 / 2 from the surface, k_n'(t) = (k2 - k1)
+                    # sin 2t (Euler's formula); turning it by -eps = 2 alpha / k_n' cancels that
+                    turned = _turn_onto_asymptote(cu, pick[ok], dirs[ok], alpha)
+                    len2, _ = _march(probe, pick[ok], turned, step, extent, s)
+                    gain = len2 > lens[ok]
+                    sel = np.flatnonzero(ok)[gain]
+                    lens[sel] = len2[gain]
+                    dirs = dirs.copy()
+                    dirs[sel] = turned[gain]
             better = lens > best_len
             best_len[better] = lens[better]
             best_dir[better] = dirs[better]
@@ -314,6 +328,25 @@ def analyse_surface(target: TargetSurface, job: JobProfile) -> SurfaceAnalysis:
         target_area_mm2=target.area_mm2,
         min_width_mm=float(job.pieces.min_width_mm),
     )
+
+
+def _turn_onto_asymptote(
+    cu: Curvature, idx: np.ndarray, dirs: np.ndarray, alpha: np.ndarray
+) -> np.ndarray:
+    """Directions (k, 3) turned about the normal by ``2 alpha / k_n'``, cancelling the drift.
+
+    The turn is clipped to 0.05 rad; the caller keeps it only where it lengthens the reach.
+    """
+    n = cu.normals[idx]
+    c = np.einsum("ij,ij->i", dirs, cu.dir1[idx])
+    si = np.einsum("ij,ij->i", dirs, cu.dir2[idx])
+    slope = (cu.k2[idx] - cu.k1[idx]) * 2.0 * si * c  # d k_n / d t at the direction
+    with np.errstate(divide="ignore", invalid="ignore"):
+        eps = np.where(np.abs(slope) > 1e-12, 2.0 * alpha / slope, 0.0)
+    eps = np.clip(eps, -0.05, 0.05)
+    side = np.cross(n, dirs)
+    out = np.cos(eps)[:, None] * dirs + np.sin(eps)[:, None] * side
+    return out / np.linalg.norm(out, axis=1, keepdims=True)
 
 
 def _direction_options(
@@ -410,11 +443,16 @@ def _march(
     step: float,
     max_len: float,
     allowed: float,
-) -> np.ndarray:
-    """Longest window (mm) through vertices ``idx`` along ``dirs``, deviation range <= allowed."""
+) -> tuple[np.ndarray, np.ndarray]:
+    """Longest window (mm) through vertices ``idx`` along ``dirs``, deviation range <= allowed.
+
+    Also returns the least-squares ``alpha`` (1/mm) of ``deviation = alpha s^2`` over the samples
+    on the surface: the quadratic drift of a line that is slightly off an asymptotic direction.
+    """
     k = int(min(_STEPS, np.ceil(max_len / step)))
     s = step * np.arange(k + 1)
     out = np.zeros(len(idx))
+    alpha = np.zeros(len(idx))
     for b0 in range(0, len(idx), _BATCH):
         sl = slice(b0, min(len(idx), b0 + _BATCH))
         p0 = probe.v[idx[sl]]
@@ -445,8 +483,12 @@ def _march(
             alive = np.cumprod(on, axis=1).astype(bool)
             hi = np.maximum.accumulate(np.where(alive, dev, -np.inf), axis=1)
             lo = np.minimum.accumulate(np.where(alive, dev, np.inf), axis=1)
-            sides.append((hi, lo, alive & (hi - lo <= allowed)))
-        (hp, lp, okp), (hn, ln, okn) = sides
+            sides.append((hi, lo, alive & (hi - lo <= allowed), np.where(alive, dev, 0.0)))
+        (hp, lp, okp, dp), (hn, ln, okn, dn) = sides
+        s2 = s * s
+        num = (dp + dn) @ s2
+        den = ((dp != 0) * 1.0 + (dn != 0) * 1.0) @ (s2 * s2)
+        alpha[sl] = np.where(den > 0, num / np.where(den > 0, den, 1.0), 0.0)
         # window [-i, +j] holds when each side alone fits and the two sides fit together:
         # max(hp_j, hn_i) - min(lp_j, ln_i) <= allowed; every condition is monotone in j,
         # so the feasible j of a given i form a prefix and their count is the longest j + 1
@@ -458,7 +500,7 @@ def _march(
         count[~okn] = 0
         best = np.where(count > 0, np.arange(k + 1)[None, :] + count - 1, 0).max(axis=1)
         out[sl] = best * step
-    return out
+    return out, alpha
 
 
 @dataclass(frozen=True, eq=False)
