@@ -189,7 +189,7 @@ def test_tiny_mesh_without_interior_vertices():
 
 
 def test_first_hit_faces_sees_the_upper_layer():
-    from wirecut.geometry.cuttability import first_hit_faces
+    from wirecut.geometry.occlusion import first_hit_faces
 
     # two horizontal squares, z = 0 (faces 0, 1) and z = 100 over a smaller plan (faces 2, 3)
     low = np.array([[0, 0, 0], [1000, 0, 0], [1000, 1000, 0], [0, 1000, 0]], float)

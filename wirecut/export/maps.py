@@ -7,7 +7,7 @@ input gives the same bytes.
 
 Each panel is a plan raster (560 pixels along the longer side): every pixel shows the face a
 ray from the waste side meets first (exact point-in-triangle casting,
-:func:`wirecut.geometry.cuttability.first_hit_faces`), so overhangs show as the wire sees them
+:func:`wirecut.geometry.occlusion.first_hit_faces`), so overhangs show as the wire sees them
 and the cost does not grow with the triangle count beyond one lookup per pixel.
 
 Palette of the classes (chosen for this project to differ in lightness as well as hue, so they
@@ -23,15 +23,10 @@ from pathlib import Path
 import numpy as np
 
 from wirecut.config import ToleranceSpec
-from wirecut.geometry.cuttability import (
-    DEVELOPABLE,
-    RULED,
-    SYNCLASTIC,
-    SurfaceAnalysis,
-    first_hit_faces,
-)
+from wirecut.geometry.cuttability import DEVELOPABLE, RULED, SYNCLASTIC, SurfaceAnalysis
 from wirecut.geometry.frames import plan_basis, to_plan
 from wirecut.geometry.mesh import TargetSurface
+from wirecut.geometry.occlusion import first_hit_faces
 
 __all__ = [
     "CLASS_COLOURS",

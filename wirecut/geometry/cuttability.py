@@ -45,7 +45,8 @@ Undercut (per vertex)
     vertex toward ``w`` meets the target again. That ray is parallel to ``w``, so it
     is cast exactly as a point-in-triangle test in plan view, with triangles bucketed on a grid:
     a triangle whose plan projection holds the vertex and whose height there exceeds the vertex's
-    by more than ``1e-6`` of the extent occludes it. Every vertex is tested.
+    by more than ``1e-6`` of the extent occludes it. Every vertex is tested
+    (:mod:`wirecut.geometry.occlusion`).
 """
 
 from __future__ import annotations
@@ -59,14 +60,13 @@ from wirecut.config import JobProfile, Policy
 from wirecut.geometry.curvature import Curvature, vertex_curvature
 from wirecut.geometry.frames import plan_basis, to_plan
 from wirecut.geometry.mesh import TargetSurface, edge_use
+from wirecut.geometry.occlusion import occluded_vertices
 
 __all__ = [
     "SurfaceAnalysis",
     "analyse_surface",
     "allowed_sagitta",
     "sagitta_reach",
-    "occluded_vertices",
-    "first_hit_faces",
     "DEVELOPABLE",
     "RULED",
     "SYNCLASTIC",
@@ -501,128 +501,3 @@ def _march(
         best = np.where(count > 0, np.arange(k + 1)[None, :] + count - 1, 0).max(axis=1)
         out[sl] = best * step
     return out, alpha
-
-
-@dataclass(frozen=True, eq=False)
-class _PlanIndex:
-    """Target triangles bucketed on a plan grid (plan = the plane perpendicular to ``w``)."""
-
-    plan: np.ndarray  # (n, 2) mm, plan coordinates of the vertices
-    height: np.ndarray  # (n,) mm, p . w
-    faces: np.ndarray  # (m, 3)
-    det: np.ndarray  # (m,) mm^2, twice the signed plan area of each face
-    key: np.ndarray  # (p,) sorted cell keys of (face, cell) pairs
-    face_of: np.ndarray  # (p,) face of each pair
-    lo: np.ndarray  # (2,) mm, grid origin
-    cell: float  # mm
-    nx: int
-    ny: int
-
-    @classmethod
-    def build(cls, target: TargetSurface) -> _PlanIndex | None:
-        w = target.waste_normal
-        v, f = target.vertices, target.faces
-        plan = to_plan(v, target.up)  # the part plan view; heights along the waste direction
-        tri = plan[f]
-        a, b, c = tri[:, 0], tri[:, 1], tri[:, 2]
-        det = (b[:, 0] - a[:, 0]) * (c[:, 1] - a[:, 1]) - (c[:, 0] - a[:, 0]) * (b[:, 1] - a[:, 1])
-        scale = float(np.ptp(plan, axis=0).max()) if len(plan) else 1.0
-        tid = np.flatnonzero(np.abs(det) > 1e-12 * scale**2)
-        if tid.size == 0:
-            return None
-        lo_t, hi_t = tri[tid].min(axis=1), tri[tid].max(axis=1)
-        lo = plan.min(axis=0)
-        cell = max(float(np.median((hi_t - lo_t).max(axis=1))), 1e-9 * scale, 1e-12)
-        for _ in range(40):
-            i0 = np.floor((lo_t - lo) / cell).astype(np.int64)
-            i1 = np.floor((hi_t - lo) / cell).astype(np.int64)
-            span = (i1 - i0 + 1).prod(axis=1)
-            if span.sum() <= 8 * len(tid) + 1_000_000:
-                break
-            cell *= 1.5
-        nx = int(np.floor(np.ptp(plan[:, 0]) / cell)) + 2
-        ny = int(np.floor(np.ptp(plan[:, 1]) / cell)) + 2
-        # expand every triangle into the cells its plan bounding box covers
-        rep = np.repeat(np.arange(len(tid)), span)
-        offs = np.arange(len(rep)) - np.repeat(np.cumsum(span) - span, span)
-        w_cells = (i1[:, 1] - i0[:, 1] + 1)[rep]
-        key = (i0[rep, 0] + offs // w_cells) * ny + (i0[rep, 1] + offs % w_cells)
-        order = np.argsort(key, kind="stable")
-        return cls(plan, v @ w, f, det, key[order], tid[rep[order]], lo, cell, nx, ny)
-
-    def hits(self, points: np.ndarray, chunk: int = 200_000):
-        """Yield (query index (k,), face (k,), height (k,) mm) for every face holding a point."""
-        ij = np.floor((np.asarray(points, float) - self.lo) / self.cell).astype(np.int64)
-        valid = (ij >= 0).all(axis=1) & (ij[:, 0] < self.nx) & (ij[:, 1] < self.ny)
-        pkey = np.where(valid, ij[:, 0] * self.ny + ij[:, 1], -1)
-        start = np.searchsorted(self.key, pkey, side="left")
-        cnt = np.where(valid, np.searchsorted(self.key, pkey, side="right") - start, 0)
-        f, plan = self.faces, self.plan
-        for c0 in range(0, len(points), chunk):
-            sl = slice(c0, min(len(points), c0 + chunk))
-            qn = cnt[sl]
-            qi = np.repeat(np.arange(sl.start, sl.stop), qn)
-            pos = np.repeat(start[sl], qn) + (
-                np.arange(len(qi)) - np.repeat(np.cumsum(qn) - qn, qn)
-            )
-            t = self.face_of[pos]
-            p = points[qi]
-            ta, tb, tc = plan[f[t, 0]], plan[f[t, 1]], plan[f[t, 2]]
-            d = self.det[t]
-            l1 = (
-                (tb[:, 0] - p[:, 0]) * (tc[:, 1] - p[:, 1])
-                - (tc[:, 0] - p[:, 0]) * (tb[:, 1] - p[:, 1])
-            ) / d
-            l2 = (
-                (tc[:, 0] - p[:, 0]) * (ta[:, 1] - p[:, 1])
-                - (ta[:, 0] - p[:, 0]) * (tc[:, 1] - p[:, 1])
-            ) / d
-            l3 = 1.0 - l1 - l2
-            inside = (l1 >= -1e-9) & (l2 >= -1e-9) & (l3 >= -1e-9)
-            h = l1 * self.height[f[t, 0]] + l2 * self.height[f[t, 1]] + l3 * self.height[f[t, 2]]
-            yield qi[inside], t[inside], h[inside]
-
-
-def occluded_vertices(target: TargetSurface) -> np.ndarray:
-    """(n,) bool: the ray from the vertex toward the waste side meets the target again.
-
-    The ray is parallel to the waste direction ``w``, so it is the plan-view point-in-triangle
-    test with heights ``p . w``; triangles are bucketed on a plan grid. The vertex's own faces
-    do not count.
-    """
-    out = np.zeros(len(target.vertices), bool)
-    index = _PlanIndex.build(target)
-    if index is None:
-        return out
-    eps = 1e-6 * max(target.extent_mm, 1e-9)
-    for qi, t, h in index.hits(index.plan):
-        own = (target.faces[t] == qi[:, None]).any(axis=1)
-        hit = ~own & (h > index.height[qi] + eps)
-        out[np.unique(qi[hit])] = True
-    return out
-
-
-def first_hit_faces(target: TargetSurface, plan_xy: np.ndarray) -> np.ndarray:
-    """(k,) int: the face a ray from the waste side meets first above each plan point; -1 if none.
-
-    Parameters
-    ----------
-    target : TargetSurface
-    plan_xy : (k, 2) float, mm, part plan view (:func:`wirecut.geometry.frames.to_plan` with
-        ``mold.up``)
-    """
-    pts = np.asarray(plan_xy, float).reshape(-1, 2)
-    best = np.full(len(pts), -1, np.int64)
-    index = _PlanIndex.build(target)
-    if index is None:
-        return best
-    top = np.full(len(pts), -np.inf)
-    for qi, t, h in index.hits(pts):
-        order = np.lexsort((h, qi))  # per query, the highest last
-        qs, ts, hs = qi[order], t[order], h[order]
-        last = np.r_[qs[1:] != qs[:-1], True]
-        q_last, t_last, h_last = qs[last], ts[last], hs[last]
-        better = h_last > top[q_last]
-        best[q_last[better]] = t_last[better]
-        top[q_last[better]] = h_last[better]
-    return best
