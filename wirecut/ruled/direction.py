@@ -9,13 +9,19 @@ directions nearest to them). They come from two sources:
   and the principal directions; the three strongest peaks of each;
 - a uniform set, every 15 degrees.
 
-Each candidate gets a quick score: the target is sampled once coarsely (about 6 000 samples,
-rotated into each candidate's frame), cut into strips along the wire of the trial width
+Each candidate gets a quick score: the target is sampled once coarsely (about 6 000 samples:
+lattice samples, or face centroids of an area-proportional random subset for a finely meshed
+target; rotated into each candidate's frame), cut into strips along the wire of the trial width
 (``job.usable_width_mm`` capped at the target's extent along the wire), and a ruled cut is
-fitted to each strip (:func:`wirecut.ruled.fit.fit_cut`, all three steps). The score is the
-share of the target area within tolerance (feasible) and the largest deviation. The best
-candidate has the largest feasible share (ties within half a percent), then the smallest max
-deviation.
+fitted to each strip (:func:`wirecut.ruled.fit.fit_cut`, steps 1-2 only: with step 3 every
+direction within 45 degrees of the rulings would look alike). The score is the
+share of the target area within tolerance (feasible), the strips and the estimated pieces
+(strips times the sweep splits the x travel forces), and the largest deviation. The trial
+width is narrowed to what the curvature allows along that wire (:func:`predicted_width_mm`,
+Euler's formula and the sagitta), so that a synclastic surface is scored at the width it will
+really be cut at, not at the full span where no direction would pass. The best candidate has
+the largest feasible share (ties within half a percent), then the fewest estimated pieces,
+then the smallest max deviation.
 """
 
 from __future__ import annotations
@@ -32,7 +38,14 @@ from wirecut.geometry.frames import DirectionFrame, rigid, to_plan
 from wirecut.ruled.fit import fit_cut
 from wirecut.ruled.sampling import TargetSamples, sample_target
 
-__all__ = ["DirectionChoice", "search_direction", "seed_angles", "UNIFORM_STEP_DEG"]
+__all__ = [
+    "DirectionChoice",
+    "search_direction",
+    "seed_angles",
+    "chord_reach_mm",
+    "predicted_width_mm",
+    "UNIFORM_STEP_DEG",
+]
 
 #: Spacing of the uniform candidate set, degrees.
 UNIFORM_STEP_DEG = 15.0
@@ -136,23 +149,29 @@ def _candidates(seeds: list[tuple[float, str]], extra: Any) -> list[tuple[float,
 
 
 def _coarse_samples(target: Any, frame: DirectionFrame) -> TargetSamples:
-    area = float(np.sum(target_face_areas(target)))
-    spacing = max(math.sqrt(area / _COARSE_SAMPLES), 1.0)
-    s = sample_target(target, rigid(frame.rotation, np.zeros(3)), spacing_mm=spacing)
-    if len(s) > _COARSE_SAMPLES:
-        idx = np.sort(np.random.default_rng(0).choice(len(s), _COARSE_SAMPLES, replace=False))
-        sub = s.subset(idx)
-        scale = s.area_mm2 / max(sub.area_mm2, 1e-300)
-        s = TargetSamples(
-            sub.points,
-            sub.normals,
-            sub.weights * scale,
-            sub.undercut,
-            sub.plan_xy,
-            sub.face,
-            sub.spacing_mm,
-        )
-    return s
+    """About ``_COARSE_SAMPLES`` samples for the quick score: lattice samples of the target at
+    the spacing that gives that many, or, for a finely meshed target, the centroids of an
+    area-proportional random subset of its faces (weights rescaled to the full area)."""
+    areas = target_face_areas(target)
+    area = float(areas.sum())
+    transform = rigid(frame.rotation, np.zeros(3))
+    if len(areas) <= _COARSE_SAMPLES:
+        spacing = max(math.sqrt(area / _COARSE_SAMPLES), 1.0)
+        return sample_target(target, transform, spacing_mm=spacing)
+    rng = np.random.default_rng(0)
+    pick = np.sort(rng.choice(len(areas), _COARSE_SAMPLES, replace=False, p=areas / area))
+    verts = np.asarray(target.vertices, float)[np.asarray(target.faces)[pick]]
+    cent = verts.mean(axis=1)
+    normals = np.asarray(target.face_normals, float)[pick] @ frame.rotation.T
+    return TargetSamples(
+        points=cent @ frame.rotation.T,
+        normals=normals,
+        weights=np.full(len(pick), area / len(pick)),
+        undercut=normals[:, 1] <= 1e-9,
+        plan_xy=to_plan(cent, np.asarray(target.up, float)),
+        face=pick,
+        spacing_mm=math.sqrt(area / len(pick)),
+    )
 
 
 def target_face_areas(target: Any) -> np.ndarray:
@@ -161,12 +180,62 @@ def target_face_areas(target: Any) -> np.ndarray:
     return 0.5 * np.linalg.norm(np.cross(v[:, 1] - v[:, 0], v[:, 2] - v[:, 0]), axis=1)
 
 
-def _score(samples: TargetSamples, job: JobProfile) -> tuple[float, float, int]:
-    """(feasible area share, max |deviation| mm, strips) of strips along the wire."""
+def chord_reach_mm(k_normal: np.ndarray, tolerance_mm: float, no_gouge: bool) -> np.ndarray:
+    """Longest chord (mm) whose straight line stays within tolerance of a circular arc.
+
+    Balanced: the best line to an arc of radius R = 1/|k| errs by half the sagitta (Chebyshev
+    equioscillation), so w = 2 sqrt(R^2 - (R - 2 tol)^2); no-gouge: the whole sagitta counts,
+    w = 2 sqrt(R^2 - (R - tol)^2). Infinite where k = 0.
+    """
+    k = np.abs(np.asarray(k_normal, float))
+    e = tolerance_mm if no_gouge else 2.0 * tolerance_mm
+    with np.errstate(divide="ignore", invalid="ignore"):
+        r = 1.0 / k
+        w = 2.0 * np.sqrt(np.maximum(r * r - np.maximum(r - e, 0.0) ** 2, 0.0))
+    return np.where(k > 0, w, np.inf)
+
+
+def predicted_width_mm(analysis: Any, wire_part: np.ndarray, job: JobProfile) -> float:
+    """Strip width along ``wire_part`` (3,) the curvature allows, mm (inf if unknown).
+
+    Normal curvature along the wire at every vertex by Euler's formula,
+    k_n = k1 cos^2(a) + k2 sin^2(a) with a the angle between the wire (projected onto the
+    tangent plane) and the first principal direction; the chord reach of each vertex from
+    :func:`chord_reach_mm`; the strip must hold everywhere along the sweep, so the width is the
+    area-weighted 2nd percentile of those reaches (a low percentile rather than the minimum,
+    which one noisy vertex would set).
+    """
+    curv = getattr(analysis, "curvature", None)
+    if curv is None:
+        return math.inf
+    k1, k2 = np.asarray(curv.k1, float), np.asarray(curv.k2, float)
+    d1, d2 = np.asarray(curv.dir1, float), np.asarray(curv.dir2, float)
+    area = np.asarray(curv.vertex_area, float)
+    ok = np.isfinite(k1) & np.isfinite(k2) & np.all(np.isfinite(d1), axis=1) & (area > 0)
+    if not ok.any():
+        return math.inf
+    c1 = d1[ok] @ wire_part
+    c2 = d2[ok] @ wire_part
+    norm = np.maximum(c1 * c1 + c2 * c2, 1e-12)
+    kn = (k1[ok] * c1 * c1 + k2[ok] * c2 * c2) / norm
+    no_gouge = job.tolerance.policy.value == "no-gouge"
+    w = chord_reach_mm(kn, job.tolerance.surface_mm, no_gouge)
+    order = np.argsort(w)
+    cum = np.cumsum(area[ok][order])
+    i = int(np.searchsorted(cum, 0.02 * cum[-1]))
+    return float(w[order][min(i, len(w) - 1)])
+
+
+def _score(
+    samples: TargetSamples, job: JobProfile, width_hint: float = math.inf
+) -> tuple[float, float, int, int]:
+    """(feasible area share, max |deviation| mm, strips, estimated pieces) of strips along the
+    wire, at the trial width: the usable span, narrowed to ``width_hint`` (the width the
+    curvature allows) but never below ``pieces.min_width_mm``."""
     z = samples.points[:, 2]
     z0, z1 = float(z.min()), float(z.max())
     span = max(z1 - z0, 1e-6)
-    width = min(job.usable_width_mm, span)
+    width = min(job.usable_width_mm, span, max(width_hint, job.pieces.min_width_mm))
     n = max(int(math.ceil(span / width - 1e-9)), 1)
     edges = np.linspace(z0, z1, n + 1)
     total = samples.area_mm2
@@ -184,7 +253,12 @@ def _score(samples: TargetSamples, job: JobProfile) -> tuple[float, float, int]:
         r = fit.report
         feasible += float(part.weights[r.within].sum())
         worst = max(worst, r.max_abs_mm)
-    return min(feasible / total, 1.0) if total > 0 else 0.0, worst, n
+    m = job.machine
+    sweep_max = m.travel_x_mm[1] - m.travel_x_mm[0] - 2.0 * m.home_clearance_mm
+    x = samples.points[:, 0]
+    along = max(int(math.ceil((float(x.max()) - float(x.min())) / max(sweep_max, 1.0))), 1)
+    share = min(feasible / total, 1.0) if total > 0 else 0.0
+    return share, worst, n, n * along
 
 
 def search_direction(
@@ -218,18 +292,27 @@ def search_direction(
     for angle, source in cands:
         frame = DirectionFrame.from_angle(angle, up, side)
         rel = rigid(frame.rotation @ first.rotation.T, np.zeros(3))
-        feasible, worst, strips = _score(base.transformed(rel), job)
+        hint = predicted_width_mm(analysis, frame.wire_part, job)
+        feasible, worst, strips, pieces = _score(base.transformed(rel), job, hint)
         rows.append(
             {
                 "angle_deg": round(math.degrees(frame.angle_rad), 3),
                 "feasible_area_fraction": feasible,
                 "max_deviation_mm": worst,
                 "strips": strips,
+                "estimated_pieces": pieces,
+                "trial_width_mm": round(min(hint, job.usable_width_mm), 1),
                 "source": source,
                 "_frame": frame,
             }
         )
-    rows.sort(key=lambda r: (-round(r["feasible_area_fraction"] / _TIE), r["max_deviation_mm"]))
+    rows.sort(
+        key=lambda r: (
+            -round(r["feasible_area_fraction"] / _TIE),
+            r["estimated_pieces"],
+            r["max_deviation_mm"],
+        )
+    )
     best = rows[0]
     runner = None
     for r in rows[1:]:
@@ -244,6 +327,12 @@ def search_direction(
             f"the runner-up at {runner['angle_deg']:.0f} deg keeps "
             f"{runner['feasible_area_fraction'] * 100:.1f}% of the area within tolerance "
             f"against {best['feasible_area_fraction'] * 100:.1f}%"
+        )
+    elif runner["estimated_pieces"] != best["estimated_pieces"]:
+        reason = (
+            f"the runner-up at {runner['angle_deg']:.0f} deg keeps as much area within "
+            f"tolerance but needs about {runner['estimated_pieces']} pieces against "
+            f"{best['estimated_pieces']}"
         )
     else:
         reason = (

@@ -351,8 +351,9 @@ def fit_cut(
             knots - s / 2, knots + s / 2, y2[:k], y2[k:], z_left, z_right, part_to_machine
         )
         ny_cut = evaluate_cut(cut, x, z).normal_y
-        if np.max(np.abs(ny_cut - ny_t)) > 1e-2:
-            # the deviation is measured along the cut's normal: solve again with it
+        if np.max(np.abs(ny_cut - ny_t)) > 1e-2 and eps <= 3.0 * tol:
+            # the deviation is measured along the cut's normal: solve again with it (not
+            # worth it far beyond the tolerance, where it cannot change what is within)
             y2, eps, more = _equal_error(a, yt, ny_cut, cells, y2, policy, tol)
             rounds += more
             cut = ruled_cut(
