@@ -147,3 +147,25 @@ def test_overhang_is_reported_undercut_and_never_feasible():
     assert r.undercut_area_fraction == pytest.approx(ledge_area / total, rel=1e-9)
     assert not r.within[s.undercut].any()
     assert r.feasible_area_fraction == pytest.approx(1 - ledge_area / total, rel=1e-6)
+
+
+def test_report_json_has_the_plan_keys_and_bad_input_is_refused():
+    from wirecut.errors import JobError
+
+    s = height_field_samples(
+        lambda x, z: 0.1 * x + 5.0, np.linspace(0, 50, 11), np.linspace(0, 40, 9)
+    )
+    fit = fit_cut(s, 0.0, 40.0, np.eye(4), ToleranceSpec(0.5))
+    # per-piece keys of plan.json (docs of the outside contract, /work/shared/interface.md)
+    assert set(fit.report.to_json()) == {
+        "max_deviation_mm",
+        "rms_deviation_mm",
+        "gouge_area_fraction",
+        "undercut_area_fraction",
+        "feasible_area_fraction",
+    }
+    assert fit.report.max_abs_mm < 1e-9  # a plane is ruled both ways (standard)
+    with pytest.raises(JobError, match="z = 100"):
+        fit_cut(s, 100.0, 200.0, np.eye(4), ToleranceSpec(0.5))  # no samples between the faces
+    with pytest.raises(JobError, match="z_left < z_right"):
+        fit_cut(s, 40.0, 0.0, np.eye(4), ToleranceSpec(0.5))
