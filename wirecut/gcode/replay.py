@@ -57,6 +57,7 @@ __all__ = [
 ]
 
 _MAX_SEGMENT_MM = 2.0  # longest segment the distance search works with
+_SEARCH_SEGMENTS = 6  # segments searched on each side of the interpolated nearest index
 
 
 @dataclass(frozen=True)
@@ -260,58 +261,47 @@ def _signed_to_sections(lo: np.ndarray, hi: np.ndarray, w: np.ndarray, q: np.nda
     ``lo``, ``hi`` (n, 2) are matching polylines in two neighbouring planes and w (c,) each
     point's position between them. + where the point lies to the right of the section's
     direction (the part side of a cut traversed with the waste on its left), i.e. where the
-    cut passes on the waste side of it. Candidate segments come from a k-d tree of the mean
-    polyline: a vertex of the true section lies within half the plane-to-plane shift of its
-    mean, so every segment reaching nearer than the nearest vertex has an end within
-    (nearest mean-vertex distance + shift + longest segment) of the point.
+    cut passes on the waste side of it. The nearest segment of the point's own section is
+    searched around the index interpolated, at the point's w, between the indices of the
+    vertices of ``lo`` and of ``hi`` nearest to it (two k-d trees): the section moves linearly
+    from one polyline to the other with matching vertices, so its nearest vertex index moves
+    between theirs. At a vertex the sign comes from the sum of
+    the two adjacent segments' normals (the pseudo-normal of a polyline).
     """
     n = len(lo)
-    mean = 0.5 * (lo + hi)
-    tree = cKDTree(mean)
-    d0, _ = tree.query(q)
-    shift = float(np.linalg.norm(hi - lo, axis=1).max())
-    seg_len = float(
-        np.maximum(
-            np.linalg.norm(np.diff(lo, axis=0), axis=1),
-            np.linalg.norm(np.diff(hi, axis=0), axis=1),
-        ).max()
-    )
-    lists = tree.query_ball_point(q, d0 + shift + seg_len + 1e-9)
-    counts = np.fromiter((len(x) for x in lists), int, len(lists))
-    verts = np.concatenate([np.asarray(x, int) for x in lists])
-    rows = np.repeat(np.arange(len(q)), counts)
-    rows = np.concatenate([rows, rows])
-    segs = np.clip(np.concatenate([verts - 1, verts]), 0, n - 2)
-    ww = w[rows][:, None]
+    _, i_lo = cKDTree(lo).query(q)
+    _, i_hi = cKDTree(hi).query(q)
+    guess = np.rint((1.0 - w) * i_lo + w * i_hi).astype(int)
+    span = np.arange(-_SEARCH_SEGMENTS, _SEARCH_SEGMENTS + 1)
+    segs = np.clip(guess[:, None] + span[None, :], 0, n - 2)  # (c, 2m + 1)
+    ww = w[:, None, None]
     a = (1 - ww) * lo[segs] + ww * hi[segs]
     b = (1 - ww) * lo[segs + 1] + ww * hi[segs + 1]
     ab = b - a
-    l2 = np.sum(ab * ab, axis=1)
-    qq = q[rows]
-    t = np.clip(np.sum((qq - a) * ab, axis=1) / np.where(l2 > 0, l2, 1.0), 0.0, 1.0)
-    foot = a + t[:, None] * ab
-    d2 = np.sum((qq - foot) ** 2, axis=1)
-    order = np.lexsort((d2, rows))
-    first = order[np.r_[True, rows[order][1:] != rows[order][:-1]]]
-    r, j, tj = rows[first], segs[first], t[first]
-    wr = w[r][:, None]
+    l2 = np.sum(ab * ab, axis=2)
+    qq = q[:, None, :]
+    t = np.clip(np.sum((qq - a) * ab, axis=2) / np.where(l2 > 0, l2, 1.0), 0.0, 1.0)
+    foot = a + t[..., None] * ab
+    d2 = np.sum((qq - foot) ** 2, axis=2)
+    best = np.argmin(d2, axis=1)
+    rows = np.arange(len(q))
+    j = segs[rows, best]
+    tj = t[rows, best]
+    f = foot[rows, best]
+    wr = w[:, None]
 
     def point(i: np.ndarray) -> np.ndarray:
         return (1 - wr) * lo[i] + wr * hi[i]
 
     n_ref = _segment_normal(point(j), point(j + 1))
-    # a foot at a vertex: the sum of the adjacent segments' normals (pseudo-normal)
     before = (tj <= 0.0) & (j > 0)
     after = (tj >= 1.0) & (j < n - 2)
     jb, ja = np.maximum(j - 1, 0), np.minimum(j + 2, n - 1)
     n_ref += np.where(before[:, None], _segment_normal(point(jb), point(j)), 0.0)
     n_ref += np.where(after[:, None], _segment_normal(point(j + 1), point(ja)), 0.0)
-    away = q[r] - foot[first]
-    side = np.sum(away * n_ref, axis=1)
-    dist = np.sqrt(d2[first])
-    out = np.empty(len(q))
-    out[r] = np.where(side > 0, -dist, dist)
-    return out
+    side = np.sum((q - f) * n_ref, axis=1)
+    dist = np.sqrt(d2[rows, best])
+    return np.where(side > 0, -dist, dist)
 
 
 def surface_deviation(
