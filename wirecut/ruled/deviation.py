@@ -70,21 +70,24 @@ class CutEvaluation:
 def evaluate_cut(cut: RuledCut, x: np.ndarray, z: np.ndarray) -> CutEvaluation:
     """Height, normal and strip of ``cut`` above machine points ``x, z`` ((n,) mm each)."""
     j, w, t, inside = cut.strip_of(x, z)
-    inside = inside & (t >= -1e-12) & (t <= 1.0 + 1e-12)
-    left, right = cut.left, cut.right
-    q0 = (1.0 - t)[:, None] * left[j] + t[:, None] * right[j]
-    q1 = (1.0 - t)[:, None] * left[j + 1] + t[:, None] * right[j + 1]
-    su = q1 - q0  # along the section, dz = 0
-    st = (1.0 - w)[:, None] * (right[j] - left[j]) + w[:, None] * (right[j + 1] - left[j + 1])
+    inside &= (t >= -1e-12) & (t <= 1.0 + 1e-12)
+    lx, ly = cut.left[:, 0], cut.left[:, 1]
+    rx, ry = cut.right[:, 0], cut.right[:, 1]
+    dlx, dly = rx - lx, ry - ly  # ruling directions in (x, y) per unit t
+    j1 = j + 1
+    x0 = lx[j] + t * dlx[j]
+    y0 = ly[j] + t * dly[j]
+    sux = lx[j1] + t * dlx[j1] - x0  # along the section, dz = 0
+    suy = ly[j1] + t * dly[j1] - y0
+    stx = dlx[j] + w * (dlx[j1] - dlx[j])
+    sty = dly[j] + w * (dly[j1] - dly[j])
     dz = cut.z_right - cut.z_left
-    # n = (-dyu dz, dxu dz, dyu stx - dxu sty): S_u x S_t oriented to +y
-    nx = -su[:, 1] * dz
-    ny = su[:, 0] * dz
-    nz = su[:, 1] * st[:, 0] - su[:, 0] * st[:, 1]
-    norm = np.sqrt(nx * nx + ny * ny + nz * nz)
-    normal_y = np.where(norm > 0, ny / np.where(norm > 0, norm, 1.0), 1.0)
-    y = (1.0 - w) * q0[:, 1] + w * q1[:, 1]
-    slope = su[:, 1] / np.where(su[:, 0] > 0, su[:, 0], 1.0)
+    # n = S_u x S_t oriented to +y: (-suy dz, sux dz, suy stx - sux sty)
+    nz = suy * stx - sux * sty
+    norm = np.sqrt((suy * dz) ** 2 + (sux * dz) ** 2 + nz * nz)
+    normal_y = np.where(norm > 0, sux * dz / np.where(norm > 0, norm, 1.0), 1.0)
+    y = y0 + w * suy
+    slope = suy / np.where(sux > 0, sux, 1.0)
     return CutEvaluation(np.where(inside, y, np.nan), normal_y, slope, j, w, t, inside)
 
 
