@@ -47,7 +47,7 @@ def test_cylinder_direction_is_its_axis(axis_deg):
     gap = abs((np.degrees(choice.runner_up.angle_rad) - axis_deg + 90.0) % 180.0 - 90.0)
     assert gap >= 10.0
     assert "runner-up" in choice.reason
-    assert len(choice.table) == 12  # the uniform 15-degree set, no seeds without an analysis
+    assert len(choice.table) == 6  # the uniform 30-degree set, no seeds without an analysis
 
 
 def test_given_candidates_and_analysis_seeds():

@@ -322,10 +322,30 @@ def _candidates(direction: Any) -> list[DirectionFrame]:
     if hasattr(direction, "best"):
         out = [direction.best]
         runner = getattr(direction, "runner_up", None)
-        if runner is not None and abs(runner.angle_rad - direction.best.angle_rad) > 1e-9:
+        if (
+            runner is not None
+            and abs(runner.angle_rad - direction.best.angle_rad) > 1e-9
+            and _contends(direction, runner)
+        ):
             out.append(runner)
         return out
     return list(direction)
+
+
+def _contends(choice: Any, runner: DirectionFrame) -> bool:
+    """True when the direction search's runner-up is close enough to the best to be split too:
+    as much area within tolerance (1 %) and at most one estimated piece more. Without the
+    search's table, always."""
+    table = getattr(choice, "table", ())
+    best = getattr(choice, "score", None)
+    deg = float(np.degrees(runner.angle_rad))
+    row = next((r for r in table if abs(float(r.get("angle_deg", -1e9)) - deg) < 1e-6), None)
+    if not best or row is None or "estimated_pieces" not in row:
+        return True
+    return (
+        row["feasible_area_fraction"] >= best["feasible_area_fraction"] - 0.01
+        and row["estimated_pieces"] <= best["estimated_pieces"] + 1
+    )
 
 
 class _Surface:

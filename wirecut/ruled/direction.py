@@ -7,7 +7,7 @@ directions nearest to them). They come from two sources:
 - seeds from the surface analysis: area-weighted histograms (5 degree bins) of the plan angles
   of the per-vertex reach directions (weighted by area times reach), the asymptotic directions
   and the principal directions; the three strongest peaks of each;
-- a uniform set, every 15 degrees.
+- a uniform set, every 30 degrees.
 
 Each candidate gets a quick score: the target is sampled once coarsely (about 6 000 samples:
 lattice samples, or face centroids of an area-proportional random subset for a finely meshed
@@ -48,7 +48,7 @@ __all__ = [
 ]
 
 #: Spacing of the uniform candidate set, degrees.
-UNIFORM_STEP_DEG = 15.0
+UNIFORM_STEP_DEG = 30.0
 _COARSE_SAMPLES = 6_000
 _TIE = 0.005  # feasible shares closer than this count as equal
 _RUNNER_UP_GAP_DEG = 10.0
@@ -275,7 +275,7 @@ def search_direction(
     job : JobProfile
         Tolerance, policy, machine span, mold up and side.
     candidates : array of float, optional
-        Plan angles (rad) to score instead of the uniform 15-degree set (seeds still added).
+        Plan angles (rad) to score instead of the uniform 30-degree set (seeds still added).
 
     Returns
     -------
