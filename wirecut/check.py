@@ -45,8 +45,8 @@ class CheckResult:
         return check_json(self)
 
     def table(self) -> list[str]:
-        """Summary lines for the terminal."""
-        a = self.analysis.to_json()
+        """Summary lines for the terminal (``-`` where a value is undefined)."""
+        a = _defined(self.analysis.to_json())
         s = self.to_json()["summary"]
         k = a["gaussian_curvature_per_mm2"]
         r = a["wire_reach_mm"]
@@ -66,6 +66,23 @@ class CheckResult:
             f"  feasible (reach >= {self.job.pieces.min_width_mm:g} mm, no undercut) "
             f"{s['feasible_area_fraction'] * 100:.1f} %",
         ]
+
+
+class _Undefined(float):
+    """A NaN that prints as '-' in any numeric format (JSON null in the analysis)."""
+
+    def __new__(cls):
+        return super().__new__(cls, "nan")
+
+    def __format__(self, spec: str) -> str:
+        return "-"
+
+
+def _defined(d):
+    """The analysis dict with None replaced by an undefined number, recursively."""
+    if isinstance(d, dict):
+        return {k: _defined(v) for k, v in d.items()}
+    return _Undefined() if d is None else d
 
 
 def check_json(result: CheckResult) -> dict:

@@ -51,6 +51,9 @@ SUPPORTED_SUFFIXES = {".stl": "stl", ".obj": "obj", ".ply": "ply", ".off": "off"
 
 #: A face of a closed solid belongs to the target when ``n . w`` exceeds this (cos 84.3 deg).
 CLOSED_FACING_THRESHOLD = 0.1
+#: Largest extent (bounding-box diagonal, mm) accepted at all: 10 km. Beyond it a mesh is
+#: refused (garbage or wrong units); between 200 m and this, only a units finding is given.
+ABSURD_EXTENT_MM = 1.0e7
 
 _PLAUSIBLE_DIAGONAL_MM = (50.0, 200_000.0)
 
@@ -348,6 +351,11 @@ def _build(
     diag = raw_diag * unit.to_mm
     if diag == 0.0:
         raise MeshError(f"{label} has zero total area (all vertices coincide)")
+    if not diag <= ABSURD_EXTENT_MM:
+        raise MeshError(
+            f"{label} is {diag:.3g} mm across, more than {ABSURD_EXTENT_MM:.0e} mm: no casting "
+            "surface is that large; check the file and its units (--units)"
+        )
     findings += _units_check(raw_diag, unit, label)
 
     # merge duplicate vertices
