@@ -40,10 +40,15 @@ def test_offset_of_a_step_is_exact():
 
 
 def test_offset_with_different_segment_distances():
-    # two perpendicular segments shifted 1 and 2: the corner is at (-2 .., 1) by line intersection
+    # two perpendicular segments shifted 1 and 2: the vertex moves along the bisector of the
+    # normals (0, 1) and (-1, 0) by the mean offset 1.5 over cos(45 deg) (mitre geometry), so
+    # to (10 - 1.5, 0 + 1.5); it then lies 0.5 = |2 - 1| / 2 off each shifted line, where the
+    # exact intersection (8, 1) would slide far along the lines for a gentle turn
     path = np.array([[0.0, 0.0], [10.0, 0.0], [10.0, 10.0]])
     off, _ = offset_polyline(path, np.array([1.0, 2.0]), side=1.0)
-    np.testing.assert_allclose(off[1], [8.0, 1.0])  # x = 10 - 2, y = 0 + 1 (line intersection)
+    np.testing.assert_allclose(off[1], [8.5, 1.5])
+    assert abs(off[1][1] - 1.0) == pytest.approx(0.5)  # off the line y = 1 by |d_a - d_b| / 2
+    assert abs(off[1][0] - 8.0) == pytest.approx(0.5)  # off the line x = 8 by the same
 
 
 @pytest.mark.parametrize("lean_deg", [0.0, 10.0, 30.0])

@@ -242,8 +242,22 @@ def build_program(
     kl = np.full(k - 1, float(kerf_mm(wire.cut_speed_mm_s, wire)))
     kr = kl.copy()
     dirs = _wire_dirs(prof_l, prof_r, width)
+    # the lag's speed caps belong to the target path (its curvature), not to the offset one:
+    # taken from the offset, a clamped join's zig-zag would cap the speed, widen the kerf,
+    # and feed back into a worse offset
+    t_l, t_r, _ = _assemble(prof_l, prof_r, block, job, overshoot)
+    t_mid_path = (1 - t_mid) * t_l + t_mid * t_r
+    caps = plan_lag(
+        t_mid_path,
+        np.full(len(t_mid_path) - 1, wire.cut_speed_mm_s),
+        _in_foam(t_mid_path, block, lag_cut + float(kl.max())),
+        gain,
+        allowed,
+        wire.lag_relax_s,
+    ).speed_cap_mm_s
     prev = None
     change = np.inf
+    relax = 1.0
     iterations = 0
     for iterations in range(1, max_iterations + 1):  # noqa: B007 - count reported
         off_l, cl_l = offset_polyline(prof_l, segment_offsets(prof_l, dirs, kl), +1.0)
@@ -252,20 +266,22 @@ def build_program(
         towers = tower_positions(pts_l, pts_r, z_l, z_r, machine.span_mm)
         mid = (1 - t_mid) * pts_l + t_mid * pts_r
         foam = _in_foam(mid, block, lag_cut + float(kl.max()))
-        caps = plan_lag(
-            mid, np.full(len(mid) - 1, wire.cut_speed_mm_s), foam, gain, allowed, wire.lag_relax_s
-        ).speed_cap_mm_s
         timing = time_moves(
             pts_l, pts_r, towers, wire.cut_speed_mm_s, machine.max_axis_speed_mm_s, caps
         )
-        kl = kerf_mm(timing.left_speed_mm_s[cut_moves], wire)
-        kr = kerf_mm(timing.right_speed_mm_s[cut_moves], wire)
+        # full steps while the offset settles; half steps once it swings (the kerf widens
+        # where a face slows, and the wider offset shortens that face's concave moves)
+        kl = kl + relax * (kerf_mm(timing.left_speed_mm_s[cut_moves], wire) - kl)
+        kr = kr + relax * (kerf_mm(timing.right_speed_mm_s[cut_moves], wire) - kr)
         dirs = _wire_dirs(off_l, off_r, width)
         cur = np.vstack([off_l, off_r])
         if prev is not None:
+            last = change
             change = float(np.abs(cur - prev).max())
             if change < _TOL_CHANGE_MM:
                 break
+            if change > last:
+                relax = 0.5
         prev = cur
     v_mid = np.linalg.norm(np.diff(mid, axis=0), axis=1) / np.where(
         timing.duration_s > 0, timing.duration_s, 1.0

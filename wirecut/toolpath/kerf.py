@@ -151,24 +151,22 @@ def offset_polyline(
         return out, 0
     na, nb = n[:-1], n[1:]
     da, db = dl[:-1], dl[1:]
-    # x . na = da and x . nb = db (both shifted lines through the vertex): 2x2 solve by Cramer
-    det = na[:, 0] * nb[:, 1] - na[:, 1] * nb[:, 0]
-    # below ~1 degree of turn the intersection of two shifted lines is ill-conditioned (it slides
-    # along the lines by (delta_a - delta_b) / sin(turn)): take the mean shift there instead,
-    # whose error across the path is at most |delta_a - delta_b| / 2
-    parallel = np.abs(det) < _PARALLEL_SIN
-    safe = np.where(parallel, 1.0, det)
-    x = np.column_stack(
-        [(da * nb[:, 1] - db * na[:, 1]) / safe, (na[:, 0] * db - nb[:, 0] * da) / safe]
-    )
-    # nearly parallel segments (a straight run, or a reversal): the mean shift
-    mean = 0.5 * (da[:, None] * na + db[:, None] * nb)
-    x = np.where(parallel[:, None], mean, x)
-    length = np.linalg.norm(x, axis=1)
+    # each inner vertex moves along the bisector of its two segment normals by the mean of their
+    # offsets over cos(turn / 2): the exact mitre where the two offsets are equal, and, where
+    # they differ (a speed change at the vertex), off the two shifted lines by at most
+    # |delta_a - delta_b| / 2. The intersection of the two shifted lines would be exact there
+    # but ill-conditioned: it slides along the lines by (delta_a - delta_b) / sin(turn), which
+    # for a gentle turn is a long way and feeds back into the face speeds and the kerf
+    bis = na + nb
+    half_cos = 0.5 * np.linalg.norm(bis, axis=1)  # cos(turn / 2)
+    reversal = half_cos < 1e-9
+    bis = np.where(reversal[:, None], na, bis / np.where(reversal, 1.0, 2.0 * half_cos)[:, None])
+    mean = 0.5 * (da + db)
+    reach = np.abs(mean) / np.maximum(half_cos, 1e-12)
     cap = miter_limit * np.maximum(np.abs(da), np.abs(db))
-    over = length > cap + 1e-12
-    scale = np.where(over, cap / np.where(length > 0, length, 1.0), 1.0)
-    out[1:-1] = p[1:-1] + x * scale[:, None]
+    over = reach > cap + 1e-12
+    length = np.where(over, cap, reach) * np.sign(mean)
+    out[1:-1] = p[1:-1] + bis * length[:, None]
     return out, int(np.count_nonzero(over))
 
 
