@@ -49,7 +49,7 @@ __all__ = [
 
 #: Spacing of the uniform candidate set, degrees.
 UNIFORM_STEP_DEG = 30.0
-_COARSE_SAMPLES = 6_000
+_COARSE_SAMPLES = 2_500
 _TIE = 0.005  # feasible shares closer than this count as equal
 _RUNNER_UP_GAP_DEG = 10.0
 
