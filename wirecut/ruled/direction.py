@@ -9,7 +9,7 @@ directions nearest to them). They come from two sources:
   and the principal directions; the three strongest peaks of each;
 - a uniform set, every 30 degrees.
 
-Each candidate gets a quick score: the target is sampled once coarsely (about 6 000 samples:
+Each candidate gets a quick score: the target is sampled once coarsely (about 2 500 samples:
 lattice samples, or face centroids of an area-proportional random subset for a finely meshed
 target; rotated into each candidate's frame), cut into strips along the wire of the trial width
 (``job.usable_width_mm`` capped at the target's extent along the wire), and a ruled cut is
