@@ -204,3 +204,16 @@ def test_console_script_has_no_traceback(tmp_path):
     assert proc.returncode == 2
     assert "Traceback" not in proc.stderr
     assert len(proc.stderr.strip().splitlines()) == 1
+
+
+def test_too_many_triangles_is_refused_with_how_to_decimate(tmp_path, capsys, monkeypatch):
+    """Above the size the tool plans within 4 GB, the refusal says how to decimate; the limit
+    is lowered here so that the test needs no 5-million-triangle file (bench/run.py measures
+    the real one)."""
+    import wirecut.geometry.mesh as mesh_module
+
+    monkeypatch.setattr(mesh_module, "MAX_TRIANGLES", 100)
+    big = _saddle(tmp_path / "big.stl", n=12)  # 242 triangles
+    code, err = _run(["plan", big, "--out", tmp_path / "o"], capsys)
+    _assert_refused(code, err, "decimate")
+    assert not (tmp_path / "o").exists()

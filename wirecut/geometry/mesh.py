@@ -44,6 +44,8 @@ __all__ = [
     "boundary_vertex_mask",
     "SUPPORTED_SUFFIXES",
     "CLOSED_FACING_THRESHOLD",
+    "ABSURD_EXTENT_MM",
+    "MAX_TRIANGLES",
 ]
 
 #: File suffixes read by :func:`load_target`, mapped to trimesh's file type.
@@ -54,6 +56,10 @@ CLOSED_FACING_THRESHOLD = 0.1
 #: Largest extent (bounding-box diagonal, mm) accepted at all: 10 km. Beyond it a mesh is
 #: refused (garbage or wrong units); between 200 m and this, only a units finding is given.
 ABSURD_EXTENT_MM = 1.0e7
+#: Most triangles a mesh file may have. The analysis peaks near 1.3 GB at 1M triangles
+#: (docs/performance.md); 2M keeps every command within 4 GB. Larger meshes are refused
+#: with a message that says how to decimate them.
+MAX_TRIANGLES = 2_000_000
 
 _PLAUSIBLE_DIAGONAL_MM = (50.0, 200_000.0)
 
@@ -308,6 +314,12 @@ def load_target(
     """
     p = Path(path)
     vertices, faces = _read_arrays(p)
+    if len(faces) > MAX_TRIANGLES:
+        raise MeshError(
+            f"{p.name} has {len(faces):,} triangles; wirecut works within 4 GB up to "
+            f"{MAX_TRIANGLES:,}: decimate it first (e.g. trimesh's "
+            "simplify_quadric_decimation, or a mesh editor's decimate tool) to about 1,000,000"
+        )
     return _build(vertices, faces, job, units, p.name)
 
 
