@@ -12,7 +12,7 @@ import numpy as np
 import pytest
 import trimesh
 
-from wirecut.config import MachineSpec, PieceRules, WireSpec, load_job
+from wirecut.config import MachineSpec, PieceRules, ToleranceSpec, WireSpec, load_job
 
 DEMO = Path(__file__).resolve().parents[1] / "demo_parts"
 
@@ -111,7 +111,7 @@ def test_demo_job_loads_and_sets_every_key():
     assert set(data["wire"]) == {f.name for f in fields(WireSpec)}
     assert set(data["pieces"]) == {f.name for f in fields(PieceRules)}
     assert set(data["foam"]) == {"density_kg_m3"}
-    assert set(data["tolerance"]) == {"surface_mm", "policy"}
+    assert set(data["tolerance"]) == {f.name for f in fields(ToleranceSpec)}
     assert set(data["mold"]) == {"side", "base_mm", "up"}
     assert {s.name for s in job.stock} == {"long", "half"}
     assert job.tolerance.surface_mm == 0.5

@@ -174,10 +174,21 @@ class StockSpec:
 
 @dataclass(frozen=True)
 class ToleranceSpec:
-    """Allowed |deviation| of the cut surface from the target (mm) and the fitting policy."""
+    """Allowed |deviation| of the cut surface from the target (mm) and the fitting policy.
+
+    ``lag_share`` is the share of ``surface_mm`` the wire lag may use at corners and on curves
+    (dwells and speed caps keep it there); the split keeps each piece's fit within the rest,
+    when the wire has a lag at all (``wire.lag_ref_mm > 0``).
+    """
 
     surface_mm: float = 0.5
     policy: Policy = Policy.BALANCED
+    lag_share: float = 0.25
+
+    @property
+    def fit_share(self) -> float:
+        """Share of the tolerance the fit may use when the wire lags (1 - lag_share)."""
+        return 1.0 - self.lag_share
 
 
 @dataclass(frozen=True)
@@ -395,10 +406,14 @@ def _stock(items: Any) -> tuple[StockSpec, ...]:
 
 def _tolerance(t: dict) -> ToleranceSpec:
     d = ToleranceSpec()
-    _check_keys(t, {"surface_mm", "policy"}, "tolerance")
+    _check_keys(t, {"surface_mm", "policy", "lag_share"}, "tolerance")
+    share = _non_negative(t.get("lag_share", d.lag_share), "tolerance.lag_share")
+    if share >= 0.9:
+        raise ProfileError(f"tolerance.lag_share must be in [0, 0.9), got {share!r}")
     return ToleranceSpec(
         surface_mm=_positive(t.get("surface_mm", d.surface_mm), "tolerance.surface_mm"),
         policy=Policy.parse(t.get("policy", d.policy.value), "tolerance.policy"),
+        lag_share=share,
     )
 
 

@@ -54,12 +54,21 @@ __all__ = [
     "split_limits",
     "split_pieces",
     "COARSE_ACCEPT",
+    "fit_budget",
 ]
 
 #: During the bisection a strip passes when its coarse fit stays within this share of the
-#: tolerance: the coarse lattice may miss up to 5 % of the tolerance of the true maximum
-#: (the spacing is chosen for that, see ``_coarse_spacing``).
+#: tolerance: the coarse lattice may miss up to 5 % of the tolerance of the true maximum (the
+#: spacing is chosen for that, see ``_coarse_spacing``). When the wire lags, the share
+#: ``tolerance.lag_share`` is kept for the lag too (see :func:`fit_budget`).
 COARSE_ACCEPT = 0.95
+
+
+def fit_budget(job: JobProfile) -> float:
+    """Share of the tolerance a strip's coarse fit may use: ``COARSE_ACCEPT``, less the lag's
+    share (``tolerance.lag_share``) when the wire has a lag (``wire.lag_ref_mm > 0``)."""
+    lag = job.tolerance.lag_share if job.wire.lag_ref_mm > 0 else 0.0
+    return COARSE_ACCEPT - lag
 
 
 @dataclass(frozen=True)
@@ -528,6 +537,7 @@ def split_pieces(
     min_w = job.pieces.min_width_mm
     step = resolution_mm or max(1.0, 0.01 * max_w)
     tol = job.tolerance.surface_mm
+    budget = fit_budget(job)
     kappa = _kappa(analysis)
     report = progress or (lambda stage, done, total: None)
 
@@ -543,7 +553,7 @@ def split_pieces(
             block, transform = _place(surf, region, frame, a, b, job)
             spacing = _coarse_spacing(surf, region.area, job, kappa)
             fit = _fit(fitter, target, region, block, transform, job, spacing)
-            return fit is None or fit.report.max_abs_mm <= COARSE_ACCEPT * tol
+            return fit is None or fit.report.max_abs_mm <= budget * tol
 
         reach = _reach(analysis)
         guess = None

@@ -187,7 +187,7 @@ def build_program(
     job: JobProfile,
     *,
     max_segment_mm: float = 10.0,
-    lag_share: float = 0.25,
+    lag_share: float | None = None,
     max_iterations: int = 40,
 ) -> tuple[CutProgram | None, ToolpathReport, list[Finding]]:
     """The machine program of one piece.
@@ -200,8 +200,9 @@ def build_program(
         Machine span, travel, axis speed, clearance, heat; wire speed, kerf and lag; tolerance.
     max_segment_mm : float, mm
         Longest move along the cut at either face.
-    lag_share : float
-        Share of ``tolerance.surface_mm`` the lag may use at corners and on curves.
+    lag_share : float, optional
+        Share of ``tolerance.surface_mm`` the lag may use at corners and on curves; default
+        the profile's ``tolerance.lag_share``.
     max_iterations : int
         Cap on the kerf/timing fixed-point iterations.
 
@@ -232,7 +233,8 @@ def build_program(
     gain = block_lag_gain_s(z_l, z_r, wire, machine.span_mm)
     lag_cut = gain * wire.cut_speed_mm_s
     overshoot = lag_cut + machine.home_clearance_mm
-    allowed = lag_share * job.tolerance.surface_mm
+    share = job.tolerance.lag_share if lag_share is None else lag_share
+    allowed = share * job.tolerance.surface_mm
     # the section where the lag is largest, as a fraction between the faces
     r1 = width * (machine.span_mm - 0.5 * (z_l + z_r)) / machine.span_mm
     t_mid = r1 / width
