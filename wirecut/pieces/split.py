@@ -620,16 +620,28 @@ def _build(surf, trial, target, job, fitter, report):
             continue
         pid = f"P{len(pieces) + 1:02d}"
         ok = bool(plan.feasible[k])
-        if not ok:
+        tol = job.tolerance.surface_mm
+        if not ok and fit.report.max_abs_mm > tol:
             bad_area += poly.area
             findings.append(
                 Finding(
                     "strip-infeasible",
-                    f"{poly.area / 1e6:.3f} m^2 cannot be cut within "
-                    f"{job.tolerance.surface_mm:g} mm even at the minimum width "
-                    f"{job.pieces.min_width_mm:g} mm "
+                    f"{poly.area / 1e6:.3f} m^2 cannot be cut within {tol:g} mm even at the "
+                    f"minimum width {job.pieces.min_width_mm:g} mm "
                     f"(max deviation {fit.report.max_abs_mm:.2f} mm)",
                     piece=pid,
+                )
+            )
+        elif not ok:
+            findings.append(
+                Finding(
+                    "thin-lag-margin",
+                    f"at the minimum width {job.pieces.min_width_mm:g} mm the fit deviates up to "
+                    f"{fit.report.max_abs_mm:.2f} mm, more than its share "
+                    f"{fit_budget(job) * tol:.2f} mm of the {tol:g} mm tolerance: less is left "
+                    "for the wire lag",
+                    piece=pid,
+                    severity=Severity.INFO,
                 )
             )
         height = block.size_mm[2]

@@ -33,7 +33,7 @@ import numpy as np
 from wirecut.config import JobProfile
 from wirecut.errors import JobError
 from wirecut.findings import Finding, Severity
-from wirecut.toolpath.kerf import kerf_mm, offset_polyline, segment_offsets
+from wirecut.toolpath.kerf import kerf_floor_speed_mm_s, kerf_mm, offset_polyline, segment_offsets
 from wirecut.toolpath.lag import block_lag_gain_s, plan_lag
 from wirecut.toolpath.program import CutProgram, Op
 from wirecut.toolpath.timing import time_moves
@@ -322,6 +322,21 @@ def build_program(
                 "kerf-join-clamped",
                 f"piece {piece.id}: {clamped} kerf join(s) at near-reversals clamped by the "
                 "mitre limit; the part may be gouged there",
+                piece.id,
+            )
+        )
+    slow = kerf_floor_speed_mm_s(wire)
+    v_faces = np.concatenate(
+        [timing.left_speed_mm_s[cut_moves], timing.right_speed_mm_s[cut_moves]]
+    )
+    n_slow = int(np.count_nonzero(v_faces < slow))
+    if n_slow:
+        findings.append(
+            Finding(
+                "slow-face",
+                f"piece {piece.id}: on {n_slow} move(s) a block face moves slower than "
+                f"{slow:.2g} mm/s (down to {float(v_faces.min()):.2g} mm/s), below the speeds "
+                "the kerf law was measured at; the kerf there may be wider than planned",
                 piece.id,
             )
         )

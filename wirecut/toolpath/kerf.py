@@ -37,6 +37,8 @@ import numpy as np
 from wirecut.config import WireSpec
 
 __all__ = [
+    "SLOW_FACE_SHARE",
+    "kerf_floor_speed_mm_s",
     "kerf_mm",
     "vertex_average",
     "segment_directions",
@@ -50,12 +52,26 @@ _PARALLEL_SIN = 0.02
 _MIN_COS = 0.05  # leaner than ~87 degrees the offset is not meaningful; clamp
 
 
+#: The kerf law is fitted to test cuts made near the cut speed (docs/calibration.md); below
+#: this share of ``wire.cut_speed_mm_s`` it is not extrapolated: the kerf is held at its value
+#: there, and the toolpath reports the slow face (finding ``slow-face``).
+SLOW_FACE_SHARE = 0.25
+
+
+def kerf_floor_speed_mm_s(wire: WireSpec) -> float:
+    """Speed (mm/s) below which :func:`kerf_mm` holds the kerf constant."""
+    return SLOW_FACE_SHARE * wire.cut_speed_mm_s
+
+
 def kerf_mm(speed_mm_s: np.ndarray | float, wire: WireSpec) -> np.ndarray:
     """Kerf width (mm) at speed ``speed_mm_s`` (mm/s): ``kerf_base + coeff / v``.
 
-    The steady-state model is not valid at rest; speeds are floored at 1e-6 mm/s.
+    The steady-state law grows without bound as v -> 0 and is only known over the speeds of
+    the test cuts: speeds under :func:`kerf_floor_speed_mm_s` (a quarter of the cut speed)
+    count as that speed.
     """
-    v = np.maximum(np.asarray(speed_mm_s, float), _MIN_SPEED_MM_S)
+    floor = max(kerf_floor_speed_mm_s(wire), _MIN_SPEED_MM_S)
+    v = np.maximum(np.asarray(speed_mm_s, float), floor)
     return wire.kerf_base_mm + wire.kerf_speed_coeff_mm2_s / v
 
 
