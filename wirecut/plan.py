@@ -150,6 +150,11 @@ def make_plan(
         progress("programs", i, n)
         piece = replace(piece, stock=stock_of.get(piece.id, piece.stock))
         program, report, tf = build_program(piece, job)
+        if program is None and getattr(piece.fit, "skewed", False):
+            # skewed rulings swing the towers further than parallel ones: try those
+            alt = _refit_parallel(target, piece, job)
+            if alt is not None:
+                piece, program, report, tf = alt
         findings.extend(tf)
         shift = float(getattr(report, "shift_x_mm", 0.0) or 0.0) if report is not None else 0.0
         if shift != 0.0:
@@ -197,6 +202,40 @@ def make_plan(
             )
         )
     return Plan(target, analysis, job, direction, split, allocation, tuple(plans), tuple(findings))
+
+
+def _refit_parallel(target, piece, job: JobProfile):
+    """(piece, program, report, findings) refitted with rulings perpendicular to the sweep
+    (no skew), or None when that program cannot be written either."""
+    from dataclasses import replace
+
+    from wirecut.errors import JobError
+    from wirecut.ruled.fit import fit_cut
+    from wirecut.ruled.sampling import sample_target
+    from wirecut.toolpath.build import build_program
+
+    b = piece.block
+    samples = sample_target(target, piece.part_to_machine, piece.region_plan)
+    try:
+        fit = fit_cut(
+            samples, b.z_mm[0], b.z_mm[1], piece.part_to_machine, job.tolerance,
+            x_range=b.x_mm, correspondence=False,
+        )  # fmt: skip
+    except JobError:
+        return None
+    flat = replace(piece, fit=fit)
+    program, report, findings = build_program(flat, job)
+    if program is None:
+        return None
+    note = Finding(
+        "refit-parallel",
+        f"piece {piece.id}: the skewed rulings would drive a tower outside travel; refitted "
+        f"with parallel rulings (max deviation {fit.report.max_abs_mm:.3f} mm instead of "
+        f"{piece.fit.report.max_abs_mm:.3f} mm)",
+        piece.id,
+        Severity.INFO,
+    )
+    return flat, program, report, [note, *findings]
 
 
 def _shifted(piece, shift: np.ndarray):
