@@ -150,9 +150,12 @@ def make_plan(
         progress("programs", i, n)
         piece = replace(piece, stock=stock_of.get(piece.id, piece.stock))
         program, report, tf = build_program(piece, job)
-        if program is None and getattr(piece.fit, "skewed", False):
-            # skewed rulings swing the towers further than parallel ones: try those
-            alt = _refit_parallel(target, piece, job)
+        if program is None:
+            # the towers would leave the travel: the block elsewhere along the wire swings them
+            # less on the side that overflows; skewed rulings swing them more than parallel ones
+            alt = _replaced_along_wire(piece, job)
+            if alt is None and getattr(piece.fit, "skewed", False):
+                alt = _refit_parallel(target, piece, job)
             if alt is not None:
                 piece, program, report, tf = alt
         findings.extend(tf)
@@ -202,6 +205,43 @@ def make_plan(
             )
         )
     return Plan(target, analysis, job, direction, split, allocation, tuple(plans), tuple(findings))
+
+
+def _replaced_along_wire(piece, job: JobProfile, positions: int = 8):
+    """(piece, program, report, findings) with the block moved along the wire (machine z) to
+    where the program stays within travel, nearest to the centred placement first; None when
+    no position between the two tower clearances works.
+
+    Extending a ruling beyond the faces multiplies its tilt by the distance to the tower over
+    the block's width (similar triangles), so a narrow block whose surface falls steeply along
+    the wire overflows the travel at one tower; nearer to that tower it overflows less.
+    """
+    from wirecut.toolpath.build import build_program
+
+    b = piece.block
+    width = b.z_mm[1] - b.z_mm[0]
+    lo = job.pieces.face_to_tower_mm
+    hi = job.machine.span_mm - job.pieces.face_to_tower_mm - width
+    if hi <= lo + 1e-6:
+        return None
+    starts = np.linspace(lo, hi, positions)
+    for z0 in sorted(starts, key=lambda z: abs(z - b.z_mm[0])):
+        dz = float(z0 - b.z_mm[0])
+        if abs(dz) < 1e-6:
+            continue
+        moved = _shifted(piece, np.array([0.0, 0.0, dz]))
+        program, report, findings = build_program(moved, job)
+        if program is not None:
+            note = Finding(
+                "re-placed-along-wire",
+                f"piece {piece.id}: block moved {dz:+.0f} mm along the wire (faces at "
+                f"{moved.block.z_mm[0]:.0f} and {moved.block.z_mm[1]:.0f} mm) to keep the "
+                "towers within travel",
+                piece.id,
+                Severity.INFO,
+            )
+            return moved, program, report, [note, *findings]
+    return None
 
 
 def _refit_parallel(target, piece, job: JobProfile):
