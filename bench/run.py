@@ -80,7 +80,7 @@ def table(head: list[str], rows: list[list]) -> str:
     return "\n".join(out)
 
 
-def speed(sizes: list[int], work: Path) -> str:
+def speed(sizes: list[int], plan_sizes: list[int], work: Path) -> str:
     rows = []
     for n in sizes:
         mesh = panel(n, work / f"panel_{n}.stl")
@@ -89,10 +89,12 @@ def speed(sizes: list[int], work: Path) -> str:
             [PY, "-m", "wirecut.cli", "check", str(mesh), "--json", str(work / f"c{n}.json")]
         )
         out = work / f"plan_{n}"
-        p_wall, p_mem, p_code = timed(
-            [PY, "-m", "wirecut.cli", "plan", str(mesh), "--out", str(out), "--quiet"]
-        )
-        s_wall = s_mem = float("nan")
+        p_wall = p_mem = s_wall = s_mem = float("nan")
+        p_code = "-"
+        if n in plan_sizes:
+            p_wall, p_mem, p_code = timed(
+                [PY, "-m", "wirecut.cli", "plan", str(mesh), "--out", str(out), "--quiet"]
+            )
         if (out / "plan.json").is_file():
             data = json.loads((out / "plan.json").read_text())
             prog = next((p for p in data["pieces"] if p.get("gcode")), None)
@@ -112,6 +114,29 @@ def speed(sizes: list[int], work: Path) -> str:
     head = ["triangles", "floor s", "floor MB", "check s", "check MB", "check/floor", "exit",
             "plan s", "plan MB", "plan/floor", "exit", "simulate s", "simulate MB"]  # fmt: skip
     return table(head, rows)
+
+
+def refusal(n: int, work: Path) -> str:
+    """A mesh over the size limit: `plan` must refuse it (exit 2) within 4 GB, saying how to
+    decimate."""
+    mesh = panel(n, work / f"panel_{n}.stl")
+    wall, mem, code = timed([PY, "-m", "wirecut.cli", "plan", str(mesh), "--out",
+                             str(work / "refused"), "--quiet"])  # fmt: skip
+    size_mb = mesh.stat().st_size / 1e6
+    mesh.unlink()
+    return table(["triangles", "file MB", "plan exit", "wall s", "peak MB"],
+                 [[f"{n:,}", f"{size_mb:.0f}", code, f"{wall:.1f}", f"{mem:.0f}"]])  # fmt: skip
+
+
+def _section_mesh(cut: np.ndarray, z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Triangles (vertices (p n, 3), faces) between the replayed cut's sections ``cut``
+    (p, n, 2) in the planes ``z`` (p,): the surface the wire edge swept, linear between."""
+    p, n, _ = cut.shape
+    v = np.column_stack([cut.reshape(-1, 2), np.repeat(z, n)])
+    i, j = np.meshgrid(np.arange(p - 1), np.arange(n - 1), indexing="ij")
+    a = (i * n + j).ravel()
+    b, c, d = a + 1, a + n + 1, a + n
+    return v, np.vstack([np.column_stack([a, b, c]), np.column_stack([a, c, d])])
 
 
 def accuracy_and_quality(work: Path) -> tuple[str, str]:
@@ -144,17 +169,15 @@ def accuracy_and_quality(work: Path) -> tuple[str, str]:
                                 job.tolerance.surface_mm)  # fmt: skip
             # brute force: 4x denser samples, exact closest points on the replayed surface mesh
             surf = replay_cut_surface(prog, pp.piece.block, job)
-            v, f = surf.to_mesh() if hasattr(surf, "to_mesh") else (None, None)
-            brute = float("nan")
-            if v is not None:
-                from wirecut.ruled.sampling import sample_target
+            v, f = _section_mesh(surf.cut, surf.z_mm)
+            from wirecut.ruled.sampling import sample_target
 
-                dense = sample_target(target, pp.piece.part_to_machine, pp.piece.region_plan,
-                                      spacing_mm=pp.samples.spacing_mm / 2.0)  # fmt: skip
-                m = trimesh.Trimesh(v, f, process=False)
-                keep = ~dense.undercut
-                _, dist, _ = trimesh.proximity.closest_point(m, dense.points[keep])
-                brute = float(np.max(dist)) if len(dist) else float("nan")
+            dense = sample_target(target, pp.piece.part_to_machine, pp.piece.region_plan,
+                                  spacing_mm=pp.samples.spacing_mm / 2.0)  # fmt: skip
+            keep = ~dense.undercut & (dense.weights > 0)
+            m = trimesh.Trimesh(v, f, process=False)
+            _, dist, _ = trimesh.proximity.closest_point(m, dense.points[keep])
+            brute = float(np.max(dist)) if len(dist) else float("nan")
             pred = entry["max_deviation_mm"]
             acc.append(
                 [mesh.stem, pp.piece.id, f"{pred:.4f}", f"{rep.max_abs_mm:.4f}",
@@ -179,10 +202,13 @@ def accuracy_and_quality(work: Path) -> tuple[str, str]:
 def main() -> None:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--sizes", default="10000,100000,1000000")
+    ap.add_argument("--plan-sizes", default="10000,100000,1000000")
+    ap.add_argument("--refusal-size", type=int, default=5_000_000)
     ap.add_argument("--skip-accuracy", action="store_true")
     ap.add_argument("--skip-speed", action="store_true")
     args = ap.parse_args()
     sizes = [int(s) for s in args.sizes.split(",") if s]
+    plan_sizes = [int(s) for s in args.plan_sizes.split(",") if s]
     print(
         f"machine: {platform.machine()}, {os.cpu_count()} cores, Python {platform.python_version()}"
     )
@@ -190,7 +216,10 @@ def main() -> None:
         work = Path(tmp)
         if not args.skip_speed:
             print("\n## Speed and memory (fresh processes)\n")
-            print(speed(sizes, work))
+            print(speed(sizes, plan_sizes, work))
+            if args.refusal_size:
+                print("\n## Size limit\n")
+                print(refusal(args.refusal_size, work))
         if not args.skip_accuracy:
             a, q = accuracy_and_quality(work)
             print("\n## Accuracy per demo piece\n")

@@ -123,14 +123,10 @@ def make_plan(
     """Plan the whole job for a target surface (part frame, mm)."""
     from dataclasses import replace
 
-    from wirecut.gcode.replay import replay
-    from wirecut.gcode.writer import normalize_program, write_gcode
     from wirecut.geometry.cuttability import analyse_surface
     from wirecut.pieces.split import split_pieces
     from wirecut.pieces.stock import allocate
     from wirecut.ruled.direction import search_direction
-    from wirecut.ruled.sampling import sample_target
-    from wirecut.toolpath.build import build_program
 
     progress = progress or _no_progress
     findings: list[Finding] = list(intake_findings)
@@ -149,27 +145,22 @@ def make_plan(
     for i, piece in enumerate(split.pieces):
         progress("programs", i, n)
         piece = replace(piece, stock=stock_of.get(piece.id, piece.stock))
-        program, report, tf = build_program(piece, job)
-        if program is None:
-            # the towers would leave the travel: the block elsewhere along the wire swings them
-            # less on the side that overflows; skewed rulings swing them more than parallel ones
-            alt = _replaced_along_wire(piece, job)
-            if alt is None and getattr(piece.fit, "skewed", False):
-                alt = _refit_parallel(target, piece, job)
+        pp, tf = _piece_plan(target, piece, job)
+        tol = job.tolerance.surface_mm
+        if getattr(piece.fit, "skewed", False) and (
+            pp.program is None or pp.deviation.max_abs_mm > tol
+        ):
+            # skewed rulings swing the towers further than parallel ones and can fan a face
+            # to a crawl: where the program fails, try the piece with parallel rulings
+            alt = _refit_parallel(target, piece, job)
             if alt is not None:
-                piece, program, report, tf = alt
+                pp2, tf2 = _piece_plan(target, alt[0], job)
+                if pp2.program is not None and (
+                    pp.program is None or pp2.deviation.max_abs_mm < pp.deviation.max_abs_mm
+                ):
+                    pp, tf = pp2, [alt[1], *tf2]
         findings.extend(tf)
-        shift = float(getattr(report, "shift_x_mm", 0.0) or 0.0) if report is not None else 0.0
-        if shift != 0.0:
-            piece = _shifted(piece, np.array([shift, 0.0, 0.0]))
-        samples = sample_target(target, piece.part_to_machine, piece.region_plan)
-        prediction = None
-        text = None
-        if program is not None:
-            program = normalize_program(program, job)  # exactly what the file will say
-            prediction = replay(program, piece, job, samples)
-            text = write_gcode(program, job)
-        plans.append(PiecePlan(piece, program, report, prediction, samples, text))
+        plans.append(pp)
     progress("programs", n, n)
 
     tol = job.tolerance.surface_mm
@@ -205,6 +196,31 @@ def make_plan(
             )
         )
     return Plan(target, analysis, job, direction, split, allocation, tuple(plans), tuple(findings))
+
+
+def _piece_plan(target, piece, job: JobProfile):
+    """(PiecePlan, findings) of one piece: its program (moved along the wire or the sweep when
+    the towers would leave the travel), the program's text and its in-memory replay."""
+    from wirecut.gcode.replay import replay
+    from wirecut.gcode.writer import normalize_program, write_gcode
+    from wirecut.ruled.sampling import sample_target
+    from wirecut.toolpath.build import build_program
+
+    program, report, findings = build_program(piece, job)
+    if program is None:
+        alt = _replaced_along_wire(piece, job)
+        if alt is not None:
+            piece, program, report, findings = alt
+    shift = float(getattr(report, "shift_x_mm", 0.0) or 0.0) if report is not None else 0.0
+    if shift != 0.0:
+        piece = _shifted(piece, np.array([shift, 0.0, 0.0]))
+    samples = sample_target(target, piece.part_to_machine, piece.region_plan)
+    prediction = text = None
+    if program is not None:
+        program = normalize_program(program, job)  # exactly what the file will say
+        prediction = replay(program, piece, job, samples)
+        text = write_gcode(program, job)
+    return PiecePlan(piece, program, report, prediction, samples, text), list(findings)
 
 
 def _replaced_along_wire(piece, job: JobProfile, positions: int = 8):
@@ -245,14 +261,13 @@ def _replaced_along_wire(piece, job: JobProfile, positions: int = 8):
 
 
 def _refit_parallel(target, piece, job: JobProfile):
-    """(piece, program, report, findings) refitted with rulings perpendicular to the sweep
-    (no skew), or None when that program cannot be written either."""
+    """(piece, finding) with the piece refitted with rulings perpendicular to the sweep (no
+    skew), or None when no such fit exists."""
     from dataclasses import replace
 
     from wirecut.errors import JobError
     from wirecut.ruled.fit import fit_cut
     from wirecut.ruled.sampling import sample_target
-    from wirecut.toolpath.build import build_program
 
     b = piece.block
     samples = sample_target(target, piece.part_to_machine, piece.region_plan)
@@ -264,18 +279,15 @@ def _refit_parallel(target, piece, job: JobProfile):
     except JobError:
         return None
     flat = replace(piece, fit=fit)
-    program, report, findings = build_program(flat, job)
-    if program is None:
-        return None
     note = Finding(
         "refit-parallel",
-        f"piece {piece.id}: the skewed rulings would drive a tower outside travel; refitted "
-        f"with parallel rulings (max deviation {fit.report.max_abs_mm:.3f} mm instead of "
-        f"{piece.fit.report.max_abs_mm:.3f} mm)",
+        f"piece {piece.id}: the skewed rulings of the best fit could not be driven within "
+        f"travel or tolerance; refitted with parallel rulings (fit deviation "
+        f"{fit.report.max_abs_mm:.3f} mm instead of {piece.fit.report.max_abs_mm:.3f} mm)",
         piece.id,
         Severity.INFO,
     )
-    return flat, program, report, [note, *findings]
+    return flat, note
 
 
 def _shifted(piece, shift: np.ndarray):
