@@ -86,3 +86,13 @@ class DevTools:
             self.proc.wait(timeout=10)
         except subprocess.TimeoutExpired:
             self.proc.kill()
+
+
+def open_page(browser: DevTools, path: Path) -> None:
+    """Load ``path`` with the Page, Runtime, Log and Network events recorded, and wait until
+    its images are decoded."""
+    for domain in ("Page", "Runtime", "Log", "Network"):
+        browser.call(f"{domain}.enable")
+    browser.call("Page.navigate", url=path.as_uri())
+    browser.wait_event("Page.loadEventFired")
+    browser.eval("Promise.all([...document.images].map(i => i.decode()))")

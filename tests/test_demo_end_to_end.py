@@ -9,7 +9,7 @@ import json
 
 import numpy as np
 import pytest
-from browser import CHROMIUM, DevTools
+from browser import CHROMIUM, DevTools, open_page
 
 from wirecut.cli import main
 from wirecut.config import load_job
@@ -87,11 +87,7 @@ def test_demo_reports_load_offline_without_errors(demo, tmp_path):
         page = out / part / "report.html"
         browser = DevTools(tmp_path / f"profile-{part}")
         try:
-            for domain in ("Page", "Runtime", "Log", "Network"):
-                browser.call(f"{domain}.enable")
-            browser.call("Page.navigate", url=page.as_uri())
-            browser.wait_event("Page.loadEventFired")
-            browser.eval("Promise.all([...document.images].map(i => i.decode()))")
+            open_page(browser, page)
             ev = browser.events
             errors = [e for e in ev if e.get("method") == "Runtime.exceptionThrown"]
             errors += [e for e in ev if e.get("method") == "Log.entryAdded"

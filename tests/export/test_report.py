@@ -245,7 +245,7 @@ def test_pictures_are_png(tmp_path):
 
 # --------------------------------------------------------------------------- headless Chromium
 
-from browser import CHROMIUM, DevTools  # noqa: E402 - shared with the demo test
+from browser import CHROMIUM, DevTools, open_page  # noqa: E402 - shared with the demo test
 
 
 @pytest.fixture(scope="module")
@@ -262,12 +262,7 @@ def loaded(tmp_path_factory):
     path = _write(out)
     browser = DevTools(tmp_path_factory.mktemp("chromium-profile"))
     try:
-        for domain in ("Page", "Runtime", "Log", "Network"):
-            browser.call(f"{domain}.enable")
-        browser.call("Page.navigate", url=path.as_uri())
-        browser.wait_event("Page.loadEventFired")
-        # the images are decoded and the viewer has drawn before the page is judged
-        browser.eval("Promise.all([...document.images].map(i => i.decode()))")
+        open_page(browser, path)  # images decoded, the viewer drawn, before the page is judged
         yield browser, out
     finally:
         browser.close()
