@@ -23,7 +23,7 @@ class WirecutError(Exception):
 
 
 class ProfileError(WirecutError, ValueError):
-    """The job profile (TOML) is malformed, or has an unknown key, wrong type or impossible value."""
+    """The job profile (TOML) is malformed or has an unknown key, a wrong type or a bad value."""
 
 
 class MeshError(WirecutError, ValueError):
