@@ -142,7 +142,7 @@ def run_simulate(
 def _against(program, job, mesh: Path, piece_id: str, plan_path: Path, units):
     from wirecut.gcode.replay import replay
     from wirecut.geometry.mesh import load_target
-    from wirecut.ruled.sampling import sample_target
+    from wirecut.plan import check_samples
 
     try:
         data = json.loads(Path(plan_path).read_text(encoding="utf-8"))
@@ -157,7 +157,7 @@ def _against(program, job, mesh: Path, piece_id: str, plan_path: Path, units):
         raise JobError(f"piece {piece_id!r} is not in {plan_path} (pieces: {known})")
     block, m, region = piece_from_plan_entry(entries[piece_id])
     target, _ = load_target(mesh, job, units)
-    samples = sample_target(target, m, region)
+    samples = check_samples(target, m, region)
 
     from wirecut.plan import replay_report
 

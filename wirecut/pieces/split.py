@@ -457,10 +457,19 @@ def _default_fitter() -> Callable[..., Any]:
     return fit_cut
 
 
+#: Samples per area of the final fit of each piece, relative to the default sampling rule: a
+#: min-max fit equalizes its error at the points it sees, so it must see enough of them at the
+#: piece's edges (see ``plan.CHECK_DENSITY``, the density its program is judged at).
+FINAL_DENSITY = 4.0
+
+
 def _fit(fitter, target, region, block, transform, job, spacing):
     from wirecut.ruled.sampling import sample_target
 
-    samples = sample_target(target, transform, region=region, spacing_mm=spacing)
+    if spacing is None:
+        samples = sample_target(target, transform, region=region, density=FINAL_DENSITY)
+    else:
+        samples = sample_target(target, transform, region=region, spacing_mm=spacing)
     if len(samples) == 0 or np.all(samples.undercut):
         return None
     try:

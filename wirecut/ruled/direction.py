@@ -21,18 +21,19 @@ width is narrowed to what the curvature allows along that wire (:func:`predicted
 Euler's formula and the sagitta), so that a synclastic surface is scored at the width it will
 really be cut at, not at the full span where no direction would pass. The best candidate has
 the largest feasible share (ties within half a percent), then the fewest estimated pieces,
-then the smallest max deviation.
+then the smallest max deviation; a direction whose curvature allows strips narrower than
+``pieces.min_width_mm`` ranks after every direction that does not.
 """
 
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Any
 
 import numpy as np
 
-from wirecut.config import JobProfile, MoldSide
+from wirecut.config import JobProfile, MoldSide, ToleranceSpec
 from wirecut.errors import JobError
 from wirecut.geometry.frames import DirectionFrame, rigid, to_plan
 from wirecut.ruled.fit import fit_cut
@@ -195,6 +196,15 @@ def chord_reach_mm(k_normal: np.ndarray, tolerance_mm: float, no_gouge: bool) ->
     return np.where(k > 0, w, np.inf)
 
 
+def fit_tolerance(job: JobProfile) -> ToleranceSpec:
+    """The tolerance a fit may use: all of it, or, when the wire lags (``wire.lag_ref_mm > 0``),
+    the share ``1 - tolerance.lag_share`` left after the lag's (the split holds fits to it)."""
+    t = job.tolerance
+    if job.wire.lag_ref_mm > 0:
+        return replace(t, surface_mm=t.surface_mm * t.fit_share)
+    return t
+
+
 def predicted_width_mm(analysis: Any, wire_part: np.ndarray, job: JobProfile) -> float:
     """Strip width along ``wire_part`` (3,) the curvature allows, mm (inf if unknown).
 
@@ -219,7 +229,7 @@ def predicted_width_mm(analysis: Any, wire_part: np.ndarray, job: JobProfile) ->
     norm = np.maximum(c1 * c1 + c2 * c2, 1e-12)
     kn = (k1[ok] * c1 * c1 + k2[ok] * c2 * c2) / norm
     no_gouge = job.tolerance.policy.value == "no-gouge"
-    w = chord_reach_mm(kn, job.tolerance.surface_mm, no_gouge)
+    w = chord_reach_mm(kn, fit_tolerance(job).surface_mm, no_gouge)
     order = np.argsort(w)
     cum = np.cumsum(area[ok][order])
     i = int(np.searchsorted(cum, 0.02 * cum[-1]))
@@ -247,7 +257,7 @@ def _score(
         if (~part.undercut).sum() < 12:
             continue
         try:
-            fit = fit_cut(part, a, b, np.eye(4), job.tolerance, correspondence=False)
+            fit = fit_cut(part, a, b, np.eye(4), fit_tolerance(job), correspondence=False)
         except JobError:
             continue
         r = fit.report
@@ -302,6 +312,9 @@ def search_direction(
                 "strips": strips,
                 "estimated_pieces": pieces,
                 "trial_width_mm": round(min(hint, job.usable_width_mm), 1),
+                # the curvature allows less than the narrowest piece: the coarse fits, with few
+                # samples per narrow strip, cannot be trusted to say otherwise
+                "below_min_width": bool(hint < job.pieces.min_width_mm),
                 "source": source,
                 "_frame": frame,
             }
@@ -309,6 +322,7 @@ def search_direction(
     rows.sort(
         key=lambda r: (
             -round(r["feasible_area_fraction"] / _TIE),
+            r["below_min_width"],
             r["estimated_pieces"],
             r["max_deviation_mm"],
         )

@@ -173,6 +173,8 @@ def sample_target(
     part_to_machine: np.ndarray,
     region: shapely.Geometry | None = None,
     spacing_mm: float | None = None,
+    *,
+    density: float = 1.0,
 ) -> TargetSamples:
     """Area-weighted samples of ``target`` in the machine frame of ``part_to_machine``.
 
@@ -188,6 +190,9 @@ def sample_target(
     spacing_mm : float, optional
         Largest distance between neighbouring samples of a face, mm (see :func:`spacing_for`).
         Default: the median edge length of the target, within 1..20 mm.
+    density : float
+        Samples per area relative to the default spacing (the spacing is divided by its square
+        root); ignored when ``spacing_mm`` is given.
 
     Returns
     -------
@@ -205,7 +210,9 @@ def sample_target(
     tri = vertices[faces]  # (m, 3, 3)
     edges = np.linalg.norm(tri[:, [1, 2, 0]] - tri, axis=2)  # (m, 3)
     if spacing_mm is None:
-        spacing = float(np.clip(np.median(edges), 1.0, 20.0))
+        if not density >= 1.0 or not math.isfinite(density):
+            raise MeshError(f"sample density must be a number >= 1, got {density!r}")
+        spacing = float(np.clip(np.median(edges), 1.0, 20.0)) / math.sqrt(density)
     else:
         spacing = float(spacing_mm)
         if not spacing > 0.0 or not math.isfinite(spacing):
