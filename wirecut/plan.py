@@ -10,6 +10,7 @@ from __future__ import annotations
 import json
 from collections.abc import Callable
 from dataclasses import dataclass
+from functools import cached_property
 from pathlib import Path
 
 import numpy as np
@@ -88,7 +89,7 @@ class PiecePlan:
     samples: object
     gcode: str | None
 
-    @property
+    @cached_property  # computed once: the summary, the table and the findings all read it
     def deviation(self):
         """The deviation report a user should believe: the replayed program, else the fit."""
         if self.prediction is not None:

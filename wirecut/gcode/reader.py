@@ -71,6 +71,22 @@ class _Fail(Exception):
     """Internal: a message for the current line."""
 
 
+def _modal_groups(
+    letter: str, codes: list[int], supported: set[int], groups: dict[int, str]
+) -> dict[str, int]:
+    """The block's codes of one letter by modal group; refuses unsupported codes and two codes
+    of one group in a block (RS274/NGC's rule)."""
+    out: dict[str, int] = {}
+    for code in codes:
+        if code not in supported:
+            raise _Fail(f"{letter}{code} is not supported")
+        group = groups[code]
+        if group in out:
+            raise _Fail(f"{letter}{out[group]} and {letter}{code} are in the same modal group")
+        out[group] = code
+    return out
+
+
 def detect_dialect(text: str, job: JobProfile) -> Dialect:
     """Which dialect a program is written in, from the feed mode words it uses.
 
@@ -202,22 +218,8 @@ class _Reader:
         self._execute(g, m, words)
 
     def _execute(self, g: list[int], m: list[int], words: dict[str, float]) -> None:
-        groups: dict[str, int] = {}
-        for code in g:
-            if code not in _G_SUPPORTED:
-                raise _Fail(f"G{code} is not supported")
-            group = _G_GROUPS[code]
-            if group in groups:
-                raise _Fail(f"G{groups[group]} and G{code} are in the same modal group")
-            groups[group] = code
-        m_groups: dict[str, int] = {}
-        for code in m:
-            if code not in _M_SUPPORTED:
-                raise _Fail(f"M{code} is not supported")
-            group = _M_GROUPS[code]
-            if group in m_groups:
-                raise _Fail(f"M{m_groups[group]} and M{code} are in the same modal group")
-            m_groups[group] = code
+        groups = _modal_groups("G", g, _G_SUPPORTED, _G_GROUPS)
+        m_groups = _modal_groups("M", m, _M_SUPPORTED, _M_GROUPS)
         dwell = groups.get("non-modal") == 4
         blending = groups.get("path control") == 64
         if "P" in words and not dwell and not blending:
