@@ -51,6 +51,23 @@ def check_samples(target, part_to_machine: np.ndarray, region):
     return sample_target(target, part_to_machine, region, density=CHECK_DENSITY)
 
 
+def _piece_samples(target, piece):
+    """The check samples of a piece: the samples its final fit was made on where the split
+    says they are the same (``extra["fit_on_check_samples"]``: same density and outline, moved
+    with the piece by :func:`_shifted`), else sampled afresh."""
+    from wirecut.ruled.sampling import default_spacing
+
+    own = getattr(piece.fit, "samples", None)
+    extra = piece.extra if isinstance(piece.extra, dict) else {}
+    if (
+        own is not None
+        and extra.get("fit_on_check_samples")
+        and own.spacing_mm == default_spacing(target, CHECK_DENSITY)
+    ):
+        return own
+    return check_samples(target, piece.part_to_machine, piece.region_plan)
+
+
 def replay_report(result, samples, tolerance_mm: float):
     """The DeviationReport of a replayed program against the target samples."""
     from wirecut.ruled.deviation import report_from_signed
@@ -238,7 +255,7 @@ def _piece_plan(target, piece, job: JobProfile):
     shift = float(getattr(report, "shift_x_mm", 0.0) or 0.0) if report is not None else 0.0
     if shift != 0.0:
         piece = _shifted(piece, np.array([shift, 0.0, 0.0]))
-    samples = check_samples(target, piece.part_to_machine, piece.region_plan)
+    samples = _piece_samples(target, piece)
     prediction = text = None
     if program is not None:
         program = normalize_program(program, job)  # exactly what the file will say
@@ -291,10 +308,9 @@ def _refit_parallel(target, piece, job: JobProfile):
 
     from wirecut.errors import JobError
     from wirecut.ruled.fit import fit_cut
-    from wirecut.ruled.sampling import sample_target
 
     b = piece.block
-    samples = sample_target(target, piece.part_to_machine, piece.region_plan)
+    samples = check_samples(target, piece.part_to_machine, piece.region_plan)
     try:
         fit = fit_cut(
             samples, b.z_mm[0], b.z_mm[1], piece.part_to_machine, job.tolerance,
@@ -333,7 +349,12 @@ def _shifted(piece, shift: np.ndarray):
     cut = RuledCut(
         c.left + shift[:2], c.right + shift[:2], c.z_left + shift[2], c.z_right + shift[2], m
     )
-    fit = replace(piece.fit, cut=cut)
+    samples = piece.fit.samples
+    if samples is not None:
+        move = np.eye(4)
+        move[:3, 3] = shift
+        samples = samples.transformed(move)
+    fit = replace(piece.fit, cut=cut, samples=samples)
     return replace(piece, block=block, part_to_machine=m, fit=fit)
 
 

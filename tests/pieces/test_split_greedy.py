@@ -111,3 +111,50 @@ def test_strip_count_bound_uses_p95_reach() -> None:
     reach = np.linspace(100.0, 200.0, 101)  # p95 = 195 mm (numpy linear percentile)
     assert strip_count_bound(1000.0, reach, 1400.0) == math.ceil(1000.0 / 195.0)
     assert strip_count_bound(1000.0, None, 300.0) == 4  # ceil(1000 / 300)
+
+
+def ratio_oracle(reach: np.ndarray, step: float, lo: float, power: float):
+    """The same feasibility as ``reach_oracle`` told as a ratio ``(width / reach)^power``
+    (feasible when <= 1), the form the split's fit oracle answers in."""
+
+    def feasible(a: float, b: float) -> float:
+        i0 = int(math.floor((a - lo) / step + 1e-9))
+        i1 = int(math.ceil((b - lo) / step - 1e-9))
+        cells = reach[max(i0, 0) : max(min(i1, len(reach)), i0 + 1)]
+        return ((b - a) / float(cells.min())) ** power
+
+    return feasible
+
+
+@pytest.mark.parametrize("seed", range(30))
+@pytest.mark.parametrize("power", [1.0, 2.0, 3.0])
+def test_ratio_oracle_gives_the_same_cuts(seed: int, power: float) -> None:
+    # the aimed probes change how often the oracle is asked, never the cuts: same result as
+    # the yes/no oracle of the same feasibility (exhaustive search above is the reference)
+    rng = np.random.default_rng(100 + seed)
+    step = 1.0
+    n = 400
+    reach = np.repeat(rng.uniform(5.0, 60.0, size=n // 20), 20)
+    args = (0.0, float(n), 80.0, 3.0, step)
+    yes_no = greedy_strips(*args[:2], reach_oracle(reach, step, 0.0), *args[2:])
+    ratio = greedy_strips(*args[:2], ratio_oracle(reach, step, 0.0, power), *args[2:])
+    assert np.array_equal(ratio.cuts, yes_no.cuts)
+    assert np.array_equal(ratio.feasible, yes_no.feasible)
+
+
+def test_ratio_oracle_asks_less_on_a_smooth_surface() -> None:
+    # deviation growing as the width squared (sagitta w^2 / 8R) with a slowly varying radius:
+    # aiming at ratio 1 needs fewer asks than galloping and bisection on the yes/no answer
+    def radius(x: float) -> float:
+        return 2000.0 + 1000.0 * math.sin(x / 700.0)
+
+    def ratio(a: float, b: float) -> float:
+        r = min(radius(a), radius(b), radius(0.5 * (a + b)))
+        return (b - a) ** 2 / (8.0 * r) / 0.35
+
+    args = (0.0, 5000.0)
+    lim = (900.0, 50.0, 2.0)
+    aimed = greedy_strips(*args, ratio, *lim, guess_mm=200.0)
+    plain = greedy_strips(*args, lambda a, b: ratio(a, b) <= 1.0, *lim, guess_mm=200.0)
+    assert np.array_equal(aimed.cuts, plain.cuts)
+    assert aimed.evaluations < 0.9 * plain.evaluations

@@ -100,7 +100,7 @@ class StripPlan:
 def greedy_strips(
     lo: float,
     hi: float,
-    feasible: Callable[[float, float], bool],
+    feasible: Callable[[float, float], bool | float],
     max_width_mm: float,
     min_width_mm: float,
     resolution_mm: float,
@@ -113,10 +113,12 @@ def greedy_strips(
     ----------
     lo, hi : float, mm
         Extent of the footprint along the wire.
-    feasible : callable (a, b) -> bool
+    feasible : callable (a, b) -> bool or float
         The oracle: can the strip between a and b (mm) be cut within tolerance. Must be
         monotone (true for a strip implies true for every sub-strip) for the count to be the
-        fewest.
+        fewest. It may instead return a float, the strip's error over the allowed error
+        (feasible when <= 1): the search then aims its next width at where that ratio
+        reaches 1, assuming it grows as a power of the width (see ``_aim``).
     max_width_mm, min_width_mm : float, mm
         Widest and narrowest strip the machine and the stock allow.
     resolution_mm : float, mm
@@ -141,42 +143,47 @@ def greedy_strips(
     ok: list[bool] = []
     calls = 0
 
-    def ask(a: float, b: float) -> bool:
+    def ask(a: float, b: float) -> tuple[bool, float | None]:
         nonlocal calls
         calls += 1
-        return bool(feasible(a, b))
+        answer = feasible(a, b)
+        if isinstance(answer, (bool, np.bool_)):
+            return bool(answer), None
+        ratio = float(answer)
+        return bool(ratio <= 1.0), ratio if math.isfinite(ratio) and ratio > 0 else None
 
     def largest(a: float, lo_k: int, hi_k: int, guess: int) -> int:
-        """Largest k in [lo_k, hi_k] with a feasible strip of k steps (lo_k - 1 if none):
-        galloping search from the guess, then bisection (same answer as plain bisection
-        for a monotone oracle, fewer asks when neighbouring strips have similar widths)."""
-        g = min(max(guess, lo_k), hi_k)
-        if ask(a, a + g * step):
-            good, d = g, 1
-            while True:
-                if good == hi_k:
-                    return good
-                nxt = min(good + d, hi_k)
-                if not ask(a, a + nxt * step):
-                    bad = nxt
-                    break
-                good, d = nxt, 2 * d
-        else:
-            bad, d = g, 1
-            while True:
-                if bad == lo_k:
-                    return lo_k - 1
-                nxt = max(bad - d, lo_k)
-                if ask(a, a + nxt * step):
-                    good = nxt
-                    break
-                bad, d = nxt, 2 * d
+        """Largest k in [lo_k, hi_k] with a feasible strip of k steps (lo_k - 1 if none).
+
+        Every probe lies strictly inside the bracket (good, bad), so for a monotone oracle
+        the answer is that of plain bisection whatever the probes. They are aimed where the
+        oracle's ratio predicts the edge (``_aim``) while that keeps working, else
+        galloping from the guess (doubling steps) and then bisection.
+        """
+        good, bad = lo_k - 1, hi_k + 1
+        ratios: dict[int, float] = {}
+        probe = min(max(guess, lo_k), hi_k)
+        stride, aimed = 1, 0
         while bad - good > 1:
-            mid = (good + bad) // 2
-            if ask(a, a + mid * step):
-                good = mid
+            passed, ratio = ask(a, a + probe * step)
+            if passed:
+                good = probe
             else:
-                bad = mid
+                bad = probe
+            if ratio is not None:
+                ratios[probe] = ratio
+            if bad - good <= 1:
+                break
+            nxt = _aim(ratios, good, bad) if aimed < 4 else None
+            if nxt is not None:
+                aimed += 1
+            elif bad > hi_k:  # no failing width known yet: gallop upward
+                nxt, stride = good + stride, 2 * stride
+            elif good < lo_k:  # no passing width known yet: gallop downward
+                nxt, stride = bad - stride, 2 * stride
+            else:
+                nxt = (good + bad) // 2
+            probe = min(max(nxt, good + 1), bad - 1)
         return good
 
     guess = min(2 * k_min, k_max)  # narrow strips are the cheap ones to fit
@@ -187,13 +194,13 @@ def greedy_strips(
         rest = hi - a
         whole = rest <= k_max * step + 1e-9
         top = min(k_max, int(math.ceil(rest / step - 1e-9)) - 1)
-        if whole and (top < k_min or rest <= guess * step + 1e-9) and ask(a, hi):
+        if whole and (top < k_min or rest <= guess * step + 1e-9) and ask(a, hi)[0]:
             # the rest fits in one strip (widened to the minimum width if narrower)
             cuts.append(max(hi, a + k_min * step) if rest < min_width_mm else hi)
             ok.append(True)
             break
         good = largest(a, k_min, top, guess) if top >= k_min else k_min - 1
-        if good == top and whole and rest > guess * step + 1e-9 and ask(a, hi):
+        if good == top and whole and rest > guess * step + 1e-9 and ask(a, hi)[0]:
             cuts.append(hi)
             ok.append(True)
             break
@@ -213,6 +220,31 @@ def greedy_strips(
             progress(f"strip {len(ok)}: {a:.1f}..{b:.1f} mm")
         a = b
     return StripPlan(np.asarray(cuts, float), np.asarray(ok, bool), calls)
+
+
+def _aim(ratios: dict[int, float], good: int, bad: int) -> int | None:
+    """Width (grid steps) where the oracle's ratio is predicted to reach 1, or None.
+
+    The ratio is modelled as ``c k^p``: a strip's deviation grows as its width squared where
+    the surface bends or twists across the wire (the sagitta ``w^2 / 8R``), so ``p = 2`` from
+    one known ratio; from the two known ratios nearest the bracket's ends, p is fitted
+    through both (clipped to 0.5..4). The prediction is rounded down, and moved one step
+    past a known passing width so that each probe narrows the bracket."""
+    pts = ratios  # passing probes lie at or below good, failing ones at or above bad
+    lower = [k for k in pts if pts[k] <= 1.0]
+    upper = [k for k in pts if pts[k] > 1.0]
+    if not lower and not upper:
+        return None
+    p = 2.0
+    if lower and upper:
+        kg, kb = max(lower), min(upper)
+        if kb != kg and pts[kb] > pts[kg]:
+            p = float(np.clip(math.log(pts[kb] / pts[kg]) / math.log(kb / kg), 0.5, 4.0))
+    ref = max(lower) if lower else min(upper)
+    if lower and upper and abs(math.log(pts[min(upper)])) < abs(math.log(pts[ref])):
+        ref = min(upper)
+    k_star = int(math.floor(ref * pts[ref] ** (-1.0 / p) + 1e-9))
+    return max(k_star, good + 1) if k_star <= good else k_star
 
 
 def sweep_cuts(x0: float, x1: float, max_length_mm: float, margin_mm: float) -> np.ndarray:
@@ -463,7 +495,7 @@ def _default_fitter() -> Callable[..., Any]:
 FINAL_DENSITY = 4.0
 
 
-def _fit(fitter, target, region, block, transform, job, spacing):
+def _fit(fitter, target, region, block, transform, job, spacing, enough_mm=None):
     from wirecut.ruled.sampling import sample_target
 
     if spacing is None:
@@ -472,10 +504,12 @@ def _fit(fitter, target, region, block, transform, job, spacing):
         samples = sample_target(target, transform, region=region, spacing_mm=spacing)
     if len(samples) == 0 or np.all(samples.undercut):
         return None
+    more = {} if enough_mm is None else {"enough_mm": enough_mm}
     try:
         return fitter(
-            samples, block.z_mm[0], block.z_mm[1], transform, job.tolerance, x_range=block.x_mm
-        )
+            samples, block.z_mm[0], block.z_mm[1], transform, job.tolerance, x_range=block.x_mm,
+            **more,
+        )  # fmt: skip
     except JobError:  # too few reachable samples in the region: nothing a wire can fit
         return None
 
@@ -555,14 +589,17 @@ def split_pieces(
         sweep, wire = plan_axes(frame, surf.up)
         lo, hi = extent_along(surf.fp, wire)
 
-        def feasible(a: float, b: float, frame=frame, wire=wire) -> bool:
+        def feasible(a: float, b: float, frame=frame, wire=wire) -> float:
+            """The strip's coarse-fit deviation over its budget (feasible when <= 1); the
+            fit stops at the first cut within the budget."""
             region = strip(surf.fp, wire, a, b)
             if region.is_empty:
-                return True
+                return 0.0
             block, transform = _place(surf, region, frame, a, b, job)
             spacing = _coarse_spacing(surf, region.area, job, kappa)
-            fit = _fit(fitter, target, region, block, transform, job, spacing)
-            return fit is None or fit.report.max_abs_mm <= budget * tol
+            allowed = budget * tol
+            fit = _fit(fitter, target, region, block, transform, job, spacing, allowed)
+            return 0.0 if fit is None else float(fit.report.max_abs_mm) / allowed
 
         reach = _reach(analysis)
         guess = None
@@ -678,6 +715,9 @@ def _build(surf, trial, target, job, fitter, report):
             "feasible": ok,
             "kept_volume_mm3": surf.kept(poly),
             "holes_plan": [np.asarray(r.coords)[:-1] for r in poly.interiors],
+            # the final fit's samples are the plan's check samples of this piece (same
+            # density and outline: plan.CHECK_DENSITY, no holes to add boundary samples)
+            "fit_on_check_samples": not poly.interiors,
         }
         outline = np.asarray(poly.exterior.coords)[:-1]
         pieces.append(Piece(pid, outline, frame, transform, block, fit, stock=None, extra=extra))

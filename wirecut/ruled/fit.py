@@ -262,6 +262,7 @@ def fit_cut(
     *,
     sweep_curvature_per_mm: float | None = None,
     correspondence: bool = True,
+    enough_mm: float | None = None,
 ) -> RuledFit:
     """Fit a ruled cut between the faces ``z_left < z_right`` (mm, machine) to ``samples``.
 
@@ -284,6 +285,10 @@ def fit_cut(
         Curvature used for H when ``ruling_spacing_mm`` is not given; default estimated.
     correspondence : bool
         Run step 3 (ruling skew); off gives vertical rulings (a quicker score).
+    enough_mm : float, optional
+        Skip step 3 when steps 1-2 already stay within this deviation (mm); default 10 % of
+        the tolerance. A caller that only asks *whether* a cut within some error exists
+        passes that error: the answer is the same, found sooner.
 
     Returns
     -------
@@ -365,7 +370,8 @@ def fit_cut(
     cut, eps, iterations, _ = linear_fit(s_zero, None)
     report = signed_deviation(cut, samples, tolerance)
     skewed = False
-    if correspondence and report.max_abs_mm > _GOOD_ENOUGH * tol:
+    enough = _GOOD_ENOUGH * tol if enough_mm is None else float(enough_mm)
+    if correspondence and report.max_abs_mm > enough:
         hi, lo = skew_seeds(x, yt, z, knots, h, z_mid, half)
         t_all = (z - z_left) / width
         end_lb, end_ub = end_bounds(x, t_all, knots)

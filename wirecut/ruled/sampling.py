@@ -26,6 +26,7 @@ ruling spacing (chord error 10 % of the tolerance) this stays a few percent of t
 from __future__ import annotations
 
 import math
+import weakref
 from dataclasses import dataclass
 from typing import Any
 
@@ -35,7 +36,7 @@ import shapely
 from wirecut.errors import MeshError
 from wirecut.geometry.frames import apply, to_plan
 
-__all__ = ["TargetSamples", "sample_target", "spacing_for", "MAX_DIVISIONS"]
+__all__ = ["TargetSamples", "sample_target", "default_spacing", "spacing_for", "MAX_DIVISIONS"]
 
 #: Largest lattice division of one face; a face needing more is a sign of a wrong spacing.
 MAX_DIVISIONS = 256
@@ -143,6 +144,60 @@ def _field(target: Any, name: str) -> np.ndarray:
     return np.asarray(value)
 
 
+class _Prepared:
+    """What sampling needs of a target, computed once per target: its triangles (part and
+    plan), their areas and longest edges, the median edge and the plan bounding boxes."""
+
+    def __init__(self, target: Any) -> None:
+        vertices = _field(target, "vertices").astype(float)
+        faces = _field(target, "faces").astype(np.int64)
+        self.normals = _field(target, "face_normals").astype(float)
+        self.up = _field(target, "up").astype(float)
+        if len(faces) == 0:
+            raise MeshError("target has no faces to sample")
+        self.tri = vertices[faces]  # (m, 3, 3)
+        edges = np.linalg.norm(self.tri[:, [1, 2, 0]] - self.tri, axis=2)  # (m, 3)
+        self.longest = edges.max(axis=1)
+        self.median_edge = float(np.median(edges))
+        d1, d2 = self.tri[:, 1] - self.tri[:, 0], self.tri[:, 2] - self.tri[:, 0]
+        self.area = 0.5 * np.linalg.norm(np.cross(d1, d2), axis=1)
+        self.tri_plan = to_plan(self.tri.reshape(-1, 3), self.up).reshape(-1, 3, 2)
+        self.box_lo = self.tri_plan.min(axis=1)
+        self.box_hi = self.tri_plan.max(axis=1)
+
+    def faces_near(self, region: shapely.Geometry) -> np.ndarray:
+        """Ascending indices of the faces whose plan bounding box meets the region's."""
+        x0, y0, x1, y1 = region.bounds
+        pad = 1e-6 * (1.0 + max(abs(x0), abs(y0), abs(x1), abs(y1)))
+        lo, hi = self.box_lo, self.box_hi
+        hit = (hi[:, 0] >= x0 - pad) & (lo[:, 0] <= x1 + pad)
+        hit &= (hi[:, 1] >= y0 - pad) & (lo[:, 1] <= y1 + pad)
+        return np.flatnonzero(hit)
+
+
+_PREPARED: weakref.WeakKeyDictionary = weakref.WeakKeyDictionary()
+
+
+def _prepared(target: Any) -> _Prepared:
+    """The cached :class:`_Prepared` of a target (computed afresh for objects that cannot be
+    weakly referenced). The target's arrays are taken as fixed once sampled."""
+    try:
+        hit = _PREPARED.get(target)
+    except TypeError:
+        return _Prepared(target)
+    if hit is None:
+        hit = _Prepared(target)
+        _PREPARED[target] = hit
+    return hit
+
+
+def default_spacing(target: Any, density: float = 1.0) -> float:
+    """The lattice spacing (mm) :func:`sample_target` uses without ``spacing_mm``."""
+    if not density >= 1.0 or not math.isfinite(density):
+        raise MeshError(f"sample density must be a number >= 1, got {density!r}")
+    return float(np.clip(_prepared(target).median_edge, 1.0, 20.0)) / math.sqrt(density)
+
+
 def _boundary_samples(
     region: shapely.Geometry, tri_plan: np.ndarray, spacing: float
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -198,27 +253,28 @@ def sample_target(
     -------
     TargetSamples
     """
-    vertices = _field(target, "vertices").astype(float)
-    faces = _field(target, "faces").astype(np.int64)
-    normals = _field(target, "face_normals").astype(float)
-    up = _field(target, "up").astype(float)
-    if len(faces) == 0:
-        raise MeshError("target has no faces to sample")
+    prep = _prepared(target)
     transform = np.asarray(part_to_machine, float)
     if transform.shape != (4, 4):
         raise MeshError(f"part_to_machine must be 4x4, got shape {transform.shape}")
-    tri = vertices[faces]  # (m, 3, 3)
-    edges = np.linalg.norm(tri[:, [1, 2, 0]] - tri, axis=2)  # (m, 3)
+    up, normals = prep.up, prep.normals
     if spacing_mm is None:
-        if not density >= 1.0 or not math.isfinite(density):
-            raise MeshError(f"sample density must be a number >= 1, got {density!r}")
-        spacing = float(np.clip(np.median(edges), 1.0, 20.0)) / math.sqrt(density)
+        spacing = default_spacing(target, density)
     else:
         spacing = float(spacing_mm)
         if not spacing > 0.0 or not math.isfinite(spacing):
             raise MeshError(f"sample spacing must be a positive number of mm, got {spacing_mm!r}")
-    area = 0.5 * np.linalg.norm(np.cross(tri[:, 1] - tri[:, 0], tri[:, 2] - tri[:, 0]), axis=1)
-    divisions = np.clip(np.ceil(edges.max(axis=1) / spacing), 1, MAX_DIVISIONS).astype(int)
+    if region is not None and not isinstance(region, shapely.Geometry):
+        outline = np.asarray(region, float)
+        if outline.ndim != 2 or outline.shape[1] != 2 or len(outline) < 3:
+            raise MeshError(f"region must be a polygon or (k >= 3, 2) outline, got {region!r}")
+        region = shapely.Polygon(outline)
+    # only the faces whose plan bounding box meets the region's are sampled (same samples
+    # as sampling every face and clipping, at a cost that follows the region, not the mesh)
+    near = np.arange(len(prep.tri)) if region is None else prep.faces_near(region)
+    tri = prep.tri[near]
+    area = prep.area[near]
+    divisions = np.clip(np.ceil(prep.longest[near] / spacing), 1, MAX_DIVISIONS).astype(int)
 
     pts_parts, w_parts, f_parts = [], [], []
     for n in np.unique(divisions):
@@ -231,21 +287,18 @@ def sample_target(
         pts_parts.append(p.reshape(-1, 3))
         w_parts.append((area[sel][:, None] * share[None, :]).reshape(-1))
         f_parts.append(np.repeat(sel, len(share)))
-    points = np.concatenate(pts_parts)
-    weights = np.concatenate(w_parts)
-    face = np.concatenate(f_parts)
+    if pts_parts:
+        points = np.concatenate(pts_parts)
+        weights = np.concatenate(w_parts)
+        face = np.concatenate(f_parts)
+    else:
+        points, weights, face = np.zeros((0, 3)), np.zeros(0), np.zeros(0, np.int64)
     plan = to_plan(points, up)
 
     if region is not None:
-        if not isinstance(region, shapely.Geometry):
-            outline = np.asarray(region, float)
-            if outline.ndim != 2 or outline.shape[1] != 2 or len(outline) < 3:
-                raise MeshError(f"region must be a polygon or (k >= 3, 2) outline, got {region!r}")
-            region = shapely.Polygon(outline)
         keep = shapely.intersects_xy(region, plan[:, 0], plan[:, 1])
         points, weights, face, plan = points[keep], weights[keep], face[keep], plan[keep]
-        tri_plan = to_plan(tri.reshape(-1, 3), up).reshape(-1, 3, 2)
-        bf, bary, bplan = _boundary_samples(region, tri_plan, spacing)
+        bf, bary, bplan = _boundary_samples(region, prep.tri_plan[near], spacing)
         if len(bf):
             t = tri[bf]
             bp = t[:, 0] + bary[:, :1] * (t[:, 1] - t[:, 0]) + bary[:, 1:] * (t[:, 2] - t[:, 0])
@@ -254,6 +307,7 @@ def sample_target(
             face = np.concatenate([face, bf])
             plan = np.concatenate([plan, bplan])
 
+    face = near[face]  # indices into the whole target
     rot = transform[:3, :3]
     machine_normals = normals[face] @ rot.T
     return TargetSamples(
