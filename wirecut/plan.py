@@ -485,6 +485,8 @@ def write_plan(plan: Plan, out_dir: Path, progress: Progress | None = None) -> d
         plan.job.tolerance.surface_mm,
         out_dir / "deviation.png",
         outlines=[np.asarray(pp.piece.region_plan) for pp in plan.pieces],
+        labels=[pp.piece.id for pp in plan.pieces],
+        title="Pieces over the deviation of the planned cut",
     )
     data = plan_json(plan)
     (out_dir / "plan.json").write_text(

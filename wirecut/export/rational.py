@@ -3,11 +3,12 @@
 :func:`rational_mesh` joins the fitted cuts of all pieces into one triangle mesh in the part
 frame, each vertex carrying the signed deviation (mm, + excess foam left on the part, - gouge)
 of the nearest target sample of its piece, as a vertex attribute ``deviation_mm`` and as a
-vertex colour. The colour scale is our own diverging ramp: deep blue (gouge at -tol) through
-white (0) to deep red (excess at +tol), clipped beyond the tolerance.
+vertex colour, on the project's one deviation scale (:mod:`wirecut.export.palette`): deep blue
+(gouge at -tol) through white (0) to deep red (excess at +tol), clipped beyond the tolerance.
 
 :func:`write_deviation_map` draws the plan view of the signed deviation of the samples with a
-colour bar in mm and a scale bar (matplotlib, Agg backend, no timestamps in the file).
+colour bar in mm and a scale bar (matplotlib, Agg canvas, no timestamps in the file); the
+report's plan view is the same picture.
 """
 
 from __future__ import annotations
@@ -20,32 +21,10 @@ import trimesh
 from scipy.spatial import cKDTree
 
 from wirecut.errors import OutputError
+from wirecut.export.palette import deviation_colors
 from wirecut.geometry.frames import apply, invert
 
 __all__ = ["deviation_colors", "rational_mesh", "write_rational_mesh", "write_deviation_map"]
-
-# the diverging ramp: (position in -1..1, RGB 0..1)
-_RAMP = np.array(
-    [
-        [-1.0, 0.09, 0.20, 0.55],
-        [-0.5, 0.38, 0.60, 0.86],
-        [0.0, 0.97, 0.97, 0.95],
-        [0.5, 0.93, 0.55, 0.38],
-        [1.0, 0.62, 0.08, 0.10],
-    ]
-)
-
-
-def deviation_colors(signed: np.ndarray, tolerance_mm: float) -> np.ndarray:
-    """RGBA colours (n, 4) uint8 of signed deviations (n,) mm on the ramp, +-tol at the ends.
-
-    NaN (no deviation known) is drawn mid grey."""
-    d = np.asarray(signed, float)
-    u = np.clip(d / max(float(tolerance_mm), 1e-12), -1.0, 1.0)
-    rgb = np.column_stack([np.interp(u, _RAMP[:, 0], _RAMP[:, i]) for i in (1, 2, 3)])
-    rgb[~np.isfinite(d)] = 0.5
-    rgba = np.column_stack([rgb, np.ones(len(d))])
-    return np.round(rgba * 255).astype(np.uint8)
 
 
 def _vertex_deviation(fit: Any, verts_machine: np.ndarray) -> np.ndarray:
@@ -136,6 +115,8 @@ def write_deviation_map(
     tol: float,
     path_png: str | Path,
     outlines: list[np.ndarray] | None = None,
+    labels: list[str] | None = None,
+    title: str = "",
 ) -> Path:
     """Plan view of the signed deviation (mm) of samples, PNG, colour bar in mm, scale bar.
 
@@ -146,52 +127,22 @@ def write_deviation_map(
     signed : (n,) float, mm
         Signed deviation (NaN: outside any cut, drawn grey).
     tol : float, mm
-        Colour scale ends at +-tol.
+        Colour scale ends at +-tol (:mod:`wirecut.export.palette`).
     path_png : path
         Output file.
     outlines : list of (k, 2) float arrays, mm, part plan view, optional
         Piece outlines drawn on top.
+    labels : list of str, optional
+        A label per outline, written at its centre.
+    title : str
+        Title above the picture.
     """
-    import matplotlib
+    from wirecut.export.palette import DeviationPicture
 
-    matplotlib.use("Agg")
-    from matplotlib import pyplot as plt
-    from matplotlib.colors import LinearSegmentedColormap
-    from mpl_toolkits.axes_grid1.anchored_artists import AnchoredSizeBar
-
-    xy = np.asarray(samples_plan_xy, float).reshape(-1, 2)
-    d = np.asarray(signed, float)
-    cmap = LinearSegmentedColormap.from_list(
-        "wirecut-deviation", [((p + 1) / 2, tuple(c)) for p, *c in _RAMP]
-    )
-    fig, ax = plt.subplots(figsize=(8, 6), dpi=100)
+    picture = DeviationPicture(tol)
+    picture.show(samples_plan_xy, signed, outlines or [], labels, title)
     try:
-        ok = np.isfinite(d)
-        if (~ok).any():
-            ax.scatter(xy[~ok, 0], xy[~ok, 1], s=1, c="0.6", linewidths=0)
-        size = float(np.clip(4e4 / max(len(xy), 1), 0.5, 12.0))
-        art = ax.scatter(
-            xy[ok, 0], xy[ok, 1], s=size, c=d[ok], cmap=cmap, vmin=-tol, vmax=tol, linewidths=0
-        )
-        for o in outlines or []:
-            o = np.asarray(o, float)
-            ax.plot(np.r_[o[:, 0], o[0, 0]], np.r_[o[:, 1], o[0, 1]], color="k", lw=0.8)
-        ax.set_aspect("equal")
-        ax.set_xlabel("plan u (mm)")
-        ax.set_ylabel("plan v (mm)")
-        bar = fig.colorbar(art, ax=ax)
-        bar.set_label("signed deviation (mm): + foam left, - gouge")
-        if len(xy):
-            extent = float(np.ptp(xy[:, 0])) or 1.0
-            length = 10 ** np.floor(np.log10(extent / 4))
-            ax.add_artist(
-                AnchoredSizeBar(
-                    ax.transData, length, f"{length:g} mm", "lower right", frameon=False
-                )
-            )
-        fig.savefig(path_png, format="png", metadata={"Software": None})
+        picture.save(path_png)
     except OSError as exc:
         raise OutputError(f"cannot write {path_png}: {exc.strerror or exc}") from None
-    finally:
-        plt.close(fig)
     return Path(path_png)

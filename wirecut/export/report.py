@@ -26,6 +26,7 @@ from pathlib import Path
 import numpy as np
 
 from wirecut.errors import OutputError
+from wirecut.export.palette import UNKNOWN, DeviationPicture, deviation_cmap, deviation_norm
 
 __all__ = ["PieceSheet", "ReportData", "SAFETY_CAUTIONS", "write_report"]
 
@@ -159,77 +160,19 @@ def _hms(seconds) -> str:
 
 
 def _cmap_norm(tol: float):
-    from matplotlib import colormaps
-    from matplotlib.colors import TwoSlopeNorm
-
-    lim = 2.0 * tol
-    return colormaps["coolwarm_r"], TwoSlopeNorm(vcenter=0.0, vmin=-lim, vmax=lim)
+    return deviation_cmap(), deviation_norm(tol)
 
 
-def _save(fig, path: Path) -> None:
+def _save(picture, path: Path) -> None:
     try:
-        fig.savefig(path, format="png", metadata={"Software": None})
+        picture.save(path)
     except OSError as exc:
         raise OutputError(f"cannot write {path}: {exc}") from None
 
 
-def _deviation_plot(ax, xy, dev, tol, outlines, labels):
-    from mpl_toolkits.axes_grid1.anchored_artists import AnchoredSizeBar
-
-    cmap, norm = _cmap_norm(tol)
-    xy = np.asarray(xy, float).reshape(-1, 2)
-    dev = np.asarray(dev, float)
-    ok = np.isfinite(dev)
-    # dot area (pt^2) so the samples about fill the axes: half the axes area over the count
-    w, h = ax.get_figure().get_size_inches() * 72.0
-    dot = float(np.clip(0.35 * w * h / max(len(xy), 1), 1.0, 40.0))
-    if (~ok).any():
-        ax.scatter(xy[~ok, 0], xy[~ok, 1], s=dot, c="0.75", linewidths=0)
-    sc = ax.scatter(xy[ok, 0], xy[ok, 1], s=dot, c=dev[ok], cmap=cmap, norm=norm, linewidths=0)
-    for outline, label in zip(outlines, labels, strict=True):
-        o = np.asarray(outline, float).reshape(-1, 2)
-        if len(o) < 2:
-            continue
-        closed = np.vstack([o, o[:1]])
-        ax.plot(closed[:, 0], closed[:, 1], color="black", lw=1.0)
-        if label:
-            cx, cy = o.mean(axis=0)
-            ax.text(
-                cx,
-                cy,
-                label,
-                ha="center",
-                va="center",
-                fontsize=9,
-                weight="bold",
-                bbox={"boxstyle": "round,pad=0.2", "fc": "white", "ec": "none", "alpha": 0.8},
-            )
-    ax.set_aspect("equal")
-    ax.set_xlabel("plan x (mm, part frame)")
-    ax.set_ylabel("plan y (mm, part frame)")
-    x0, x1 = ax.get_xlim()
-    bar = 10 ** math.floor(math.log10(max((x1 - x0) / 4.0, 1e-9)))
-    ax.add_artist(
-        AnchoredSizeBar(
-            ax.transData,
-            bar,
-            f"{bar:g} mm",
-            "lower right",
-            frameon=True,
-            size_vertical=(x1 - x0) * 0.004,
-            pad=0.4,
-        )
-    )
-    return sc
-
-
 def _plan_view_png(data: ReportData, path: Path) -> None:
-    from matplotlib.backends.backend_agg import FigureCanvasAgg
-    from matplotlib.figure import Figure
+    from wirecut.export.rational import write_deviation_map
 
-    fig = Figure(figsize=(9.0, 6.0), dpi=100)
-    FigureCanvasAgg(fig)
-    ax = fig.add_subplot(1, 1, 1)
     if data.pieces:
         xy = np.vstack([p.sample_plan_xy for p in data.pieces])
         dev = np.concatenate([p.sample_deviation for p in data.pieces])
@@ -237,35 +180,15 @@ def _plan_view_png(data: ReportData, path: Path) -> None:
         from wirecut.geometry.frames import to_plan
 
         xy, dev = to_plan(data.target_vertices, np.array([0.0, 0.0, 1.0])), data.target_deviation
-    sc = _deviation_plot(
-        ax,
+    write_deviation_map(
         xy,
         dev,
         data.tolerance_mm,
+        path,
         [p.region_plan for p in data.pieces],
         [p.id for p in data.pieces],
+        title="Pieces over the deviation of the planned cut",
     )
-    cb = fig.colorbar(sc, ax=ax, shrink=0.85, extend="both")
-    cb.set_label("signed deviation (mm): + foam left, - gouge")
-    ax.set_title("Pieces over the deviation of the planned cut")
-    fig.tight_layout()
-    _save(fig, path)
-
-
-def _piece_png(piece: PieceSheet, tol: float, path: Path) -> None:
-    from matplotlib.backends.backend_agg import FigureCanvasAgg
-    from matplotlib.figure import Figure
-
-    fig = Figure(figsize=(5.0, 3.6), dpi=100)
-    FigureCanvasAgg(fig)
-    ax = fig.add_subplot(1, 1, 1)
-    sc = _deviation_plot(
-        ax, piece.sample_plan_xy, piece.sample_deviation, tol, [piece.region_plan], [""]
-    )
-    fig.colorbar(sc, ax=ax, shrink=0.85, extend="both").set_label("deviation (mm)")
-    ax.set_title(f"{piece.id}: deviation")
-    fig.tight_layout()
-    _save(fig, path)
 
 
 def _svg_paths(title: str, curves: list[tuple[np.ndarray, str, str]], box_xy=None) -> str:
@@ -326,7 +249,8 @@ def _viewer_json(data: ReportData) -> str:
     cmap, norm = _cmap_norm(data.tolerance_mm)
     rgba = cmap(norm(np.nan_to_num(face_dev)))
     colours = [
-        to_hex(c) if np.isfinite(d) else "#bdbdbd" for c, d in zip(rgba, face_dev, strict=True)
+        to_hex(c) if np.isfinite(d) else to_hex((UNKNOWN,) * 3)
+        for c, d in zip(rgba, face_dev, strict=True)
     ]
     doc = {
         "v": [round(float(x), 1) for x in v.ravel()],
@@ -607,9 +531,14 @@ def write_report(data: ReportData, out_dir: Path) -> Path:
         raise OutputError(f"cannot create {files}: {exc}") from None
     _plan_view_png(data, files / "plan_view.png")
     piece_imgs = {}
+    picture = DeviationPicture(
+        data.tolerance_mm, (5.0, 3.6), (0.16, 0.9, 0.15, 0.9), "deviation (mm)", cells=200
+    )
     for sheet in data.pieces:
         name = f"deviation_{sheet.id}.png"
-        _piece_png(sheet, data.tolerance_mm, files / name)
+        picture.show(sheet.sample_plan_xy, sheet.sample_deviation, [sheet.region_plan], [""],
+                     f"{sheet.id}: deviation")  # fmt: skip
+        _save(picture, files / name)
         piece_imgs[sheet.id] = f"report_files/{name}"
     text = _page(data, out_dir, "report_files/plan_view.png", piece_imgs)
     path = out_dir / "report.html"

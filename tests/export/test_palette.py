@@ -1,0 +1,47 @@
+"""The one deviation colour scale and the worst-per-cell raster of the pictures."""
+
+from __future__ import annotations
+
+import numpy as np
+
+from wirecut.export.palette import deviation_cmap, deviation_colors, deviation_norm, worst_raster
+
+
+def test_raster_keeps_the_worst_sample_of_each_cell() -> None:
+    # four samples in one cell and one alone: the cell shows the largest magnitude, sign kept
+    xy = np.array([[1.0, 1.0], [1.2, 1.1], [1.1, 1.3], [1.3, 1.2], [9.0, 9.0], [9.0, 1.0]])
+    d = np.array([0.1, -0.3, 0.25, np.nan, 0.05, np.nan])
+    value, unknown, extent = worst_raster(xy, d, cells=4)
+    x0, x1, y0, y1 = extent
+    assert x0 <= 1.0 and x1 >= 9.0 and y0 <= 1.0 and y1 >= 9.0
+    cell = (x1 - x0) / value.shape[1]
+
+    def at(p):
+        return int((p[1] - y0) / cell), int((p[0] - x0) / cell)
+
+    assert value[at(xy[0])] == -0.3
+    assert value[at(xy[4])] == 0.05
+    assert unknown[at(xy[5])] and not np.isfinite(value[at(xy[5])])
+    assert not unknown[at(xy[0])]  # a cell with known samples is not marked unknown
+    finite = value[np.isfinite(value)]
+    assert set(np.round(finite, 6)) == {-0.3, 0.05}
+
+
+def test_raster_cells_are_not_finer_than_the_samples() -> None:
+    # a regular 50 x 50 lattice at 2 mm: no empty cell inside (cells >= 1.5 spacings)
+    g = np.arange(50) * 2.0
+    xy = np.column_stack([a.ravel() for a in np.meshgrid(g, g)])
+    value, _, _ = worst_raster(xy, np.zeros(len(xy)), cells=400)
+    assert np.isfinite(value).all()
+
+
+def test_pictures_and_mesh_colours_agree() -> None:
+    # the report's colour map and the PLY vertex colours are the same scale: -tol blue,
+    # 0 white, +tol red, clipped beyond
+    tol = 0.5
+    d = np.linspace(-0.7, 0.7, 29)
+    mesh = deviation_colors(d, tol)[:, :3].astype(float)
+    pic = deviation_cmap()(deviation_norm(tol)(d))[:, :3] * 255.0
+    assert np.abs(mesh - pic).max() <= 3.0  # 256-entry lookup table vs exact interpolation
+    assert mesh[0, 2] > mesh[0, 0] and mesh[-1, 0] > mesh[-1, 2]
+    assert np.array_equal(mesh[0], mesh[2])  # beyond -tol held at the end colour
