@@ -8,6 +8,7 @@ files. This is the only module that knows every stage.
 from __future__ import annotations
 
 import json
+import shutil
 from collections.abc import Callable
 from dataclasses import dataclass
 from functools import cached_property
@@ -16,6 +17,7 @@ from pathlib import Path
 import numpy as np
 
 from wirecut.config import JobProfile
+from wirecut.errors import OutputError
 from wirecut.findings import Finding, Severity
 
 __all__ = [
@@ -169,6 +171,7 @@ def make_plan(
     from wirecut.pieces.split import split_pieces
     from wirecut.pieces.stock import allocate
     from wirecut.ruled.direction import search_direction
+    from wirecut.workers import pmap
 
     progress = progress or _no_progress
     findings: list[Finding] = list(intake_findings)
@@ -182,10 +185,7 @@ def make_plan(
     findings.extend(getattr(allocation, "findings", ()))
     stock_of = {p.piece_id: p.stock for p in allocation.placements}
 
-    plans: list[PiecePlan] = []
-    n = len(split.pieces)
-    for i, piece in enumerate(split.pieces):
-        progress("programs", i, n)
+    def programmed(piece):
         piece = replace(piece, stock=stock_of.get(piece.id, piece.stock))
         pp, tf = _piece_plan(target, piece, job)
         tol = job.tolerance.surface_mm
@@ -201,9 +201,15 @@ def make_plan(
                     pp.program is None or pp2.deviation.max_abs_mm < pp.deviation.max_abs_mm
                 ):
                     pp, tf = pp2, [alt[1], *tf2]
+        _ = pp.deviation  # computed in the worker, not again in the parent
+        return pp, tf
+
+    n = len(split.pieces)
+    progress("programs", 0, n)
+    plans: list[PiecePlan] = []
+    for pp, tf in pmap(programmed, split.pieces, done=lambda i: progress("programs", i, n)):
         findings.extend(tf)
         plans.append(pp)
-    progress("programs", n, n)
 
     tol = job.tolerance.surface_mm
     for pp in plans:
@@ -464,7 +470,7 @@ def plan_json(plan: Plan) -> dict:
 def write_plan(plan: Plan, out_dir: Path, progress: Progress | None = None) -> dict:
     """Write every file of a plan into ``out_dir`` (a fresh folder); return plan.json's dict."""
     from wirecut.export.dxf import write_dxf
-    from wirecut.export.rational import rational_mesh, write_deviation_map, write_rational_mesh
+    from wirecut.export.rational import rational_mesh, write_rational_mesh
 
     progress = progress or _no_progress
     out_dir = Path(out_dir)
@@ -477,17 +483,6 @@ def write_plan(plan: Plan, out_dir: Path, progress: Progress | None = None) -> d
     write_dxf([pp.piece for pp in plan.pieces], plan.allocation, out_dir / "pieces.dxf")
     mesh = rational_mesh([(pp.piece.fit, pp.piece.part_to_machine) for pp in plan.pieces])
     write_rational_mesh(mesh, out_dir / "rationalized.ply")
-    xy = np.vstack([pp.samples.plan_xy for pp in plan.pieces])
-    dev = np.concatenate([pp.deviation.signed for pp in plan.pieces])
-    write_deviation_map(
-        xy,
-        dev,
-        plan.job.tolerance.surface_mm,
-        out_dir / "deviation.png",
-        outlines=[np.asarray(pp.piece.region_plan) for pp in plan.pieces],
-        labels=[pp.piece.id for pp in plan.pieces],
-        title="Pieces over the deviation of the planned cut",
-    )
     data = plan_json(plan)
     (out_dir / "plan.json").write_text(
         json.dumps(data, indent=2, sort_keys=True) + "\n", encoding="utf-8"
@@ -496,5 +491,10 @@ def write_plan(plan: Plan, out_dir: Path, progress: Progress | None = None) -> d
     from wirecut.export.report_data import report_data
 
     write_report(report_data(plan, data), out_dir)
+    # deviation.png is the report's plan view (the same picture: wirecut.export.rational)
+    try:
+        shutil.copyfile(out_dir / "report_files" / "plan_view.png", out_dir / "deviation.png")
+    except OSError as exc:
+        raise OutputError(f"cannot write {out_dir / 'deviation.png'}: {exc}") from None
     progress("writing", n, n)
     return data

@@ -58,6 +58,12 @@ def test_greedy_matches_exhaustive_search(seed: int, min_cells: int) -> None:
     # where the search starts changes the number of asks, never the cuts
     guessed = greedy_strips(lo, hi, feasible, max_w, min_w, step, guess_mm=rng.uniform(0, 80))
     assert np.array_equal(guessed.cuts, plan.cuts)
+    # two strips asked per round (as the split does in worker processes): the same cuts
+    paired = greedy_strips(
+        lo, hi, feasible, max_w, min_w, step,
+        feasible_many=lambda pairs: [feasible(a, b) for a, b in pairs],
+    )  # fmt: skip
+    assert np.array_equal(paired.cuts, plan.cuts)
     best = brute_force(n, step, lo, hi, feasible, max_w, min_w)
     assert best is not None
     # exhaustive search over all cut positions on the grid (reference), greedy stays ahead
@@ -137,8 +143,13 @@ def test_ratio_oracle_gives_the_same_cuts(seed: int, power: float) -> None:
     reach = np.repeat(rng.uniform(5.0, 60.0, size=n // 20), 20)
     args = (0.0, float(n), 80.0, 3.0, step)
     yes_no = greedy_strips(*args[:2], reach_oracle(reach, step, 0.0), *args[2:])
-    ratio = greedy_strips(*args[:2], ratio_oracle(reach, step, 0.0, power), *args[2:])
+    oracle = ratio_oracle(reach, step, 0.0, power)
+    ratio = greedy_strips(*args[:2], oracle, *args[2:])
     assert np.array_equal(ratio.cuts, yes_no.cuts)
+    paired = greedy_strips(
+        *args[:2], oracle, *args[2:], feasible_many=lambda ps: [oracle(a, b) for a, b in ps]
+    )
+    assert np.array_equal(paired.cuts, yes_no.cuts)
     assert np.array_equal(ratio.feasible, yes_no.feasible)
 
 

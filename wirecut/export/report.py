@@ -27,6 +27,7 @@ import numpy as np
 
 from wirecut.errors import OutputError
 from wirecut.export.palette import UNKNOWN, DeviationPicture, deviation_cmap, deviation_norm
+from wirecut.workers import pmap, worker_count
 
 __all__ = ["PieceSheet", "ReportData", "SAFETY_CAUTIONS", "write_report"]
 
@@ -530,16 +531,20 @@ def write_report(data: ReportData, out_dir: Path) -> Path:
     except OSError as exc:
         raise OutputError(f"cannot create {files}: {exc}") from None
     _plan_view_png(data, files / "plan_view.png")
-    piece_imgs = {}
-    picture = DeviationPicture(
-        data.tolerance_mm, (5.0, 3.6), (0.16, 0.9, 0.15, 0.9), "deviation (mm)", cells=200
-    )
-    for sheet in data.pieces:
-        name = f"deviation_{sheet.id}.png"
-        picture.show(sheet.sample_plan_xy, sheet.sample_deviation, [sheet.region_plan], [""],
-                     f"{sheet.id}: deviation")  # fmt: skip
-        _save(picture, files / name)
-        piece_imgs[sheet.id] = f"report_files/{name}"
+    piece_imgs = {sheet.id: f"report_files/deviation_{sheet.id}.png" for sheet in data.pieces}
+
+    def draw(sheets) -> None:
+        picture = DeviationPicture(
+            data.tolerance_mm, (5.0, 3.6), (0.16, 0.9, 0.15, 0.9), "deviation (mm)", cells=200
+        )
+        for sheet in sheets:
+            picture.show(sheet.sample_plan_xy, sheet.sample_deviation, [sheet.region_plan],
+                         [""], f"{sheet.id}: deviation")  # fmt: skip
+            _save(picture, out_dir / piece_imgs[sheet.id])
+
+    # one picture (figure) per worker, each drawing a run of the pieces
+    runs = max(1, min(worker_count(), len(data.pieces)))
+    pmap(draw, [data.pieces[i::runs] for i in range(runs)])
     text = _page(data, out_dir, "report_files/plan_view.png", piece_imgs)
     path = out_dir / "report.html"
     try:

@@ -43,6 +43,7 @@ from wirecut.pieces.region import (
     polygons_of,
     strip,
 )
+from wirecut.workers import forked, pmap
 
 __all__ = [
     "StripPlan",
@@ -106,6 +107,7 @@ def greedy_strips(
     resolution_mm: float,
     progress: Callable[[str], None] | None = None,
     guess_mm: float | None = None,
+    feasible_many: Callable[[list[tuple[float, float]]], list] | None = None,
 ) -> StripPlan:
     """Fewest strips covering ``[lo, hi]`` whose every strip passes ``feasible``.
 
@@ -129,6 +131,10 @@ def greedy_strips(
     guess_mm : float, optional
         Expected strip width where the search starts (later strips start from the previous
         width); it changes only how many times the oracle is asked, never the result.
+    feasible_many : callable (list of (a, b)) -> list, optional
+        The same oracle asked about several strips at once (for instance side by side in
+        worker processes); the search then asks two strips per round. Never changes the
+        result.
 
     Returns
     -------
@@ -143,14 +149,21 @@ def greedy_strips(
     ok: list[bool] = []
     calls = 0
 
-    def ask(a: float, b: float) -> tuple[bool, float | None]:
-        nonlocal calls
-        calls += 1
-        answer = feasible(a, b)
-        if isinstance(answer, (bool, np.bool_)):
-            return bool(answer), None
-        ratio = float(answer)
+    def answer(raw) -> tuple[bool, float | None]:
+        if isinstance(raw, (bool, np.bool_)):
+            return bool(raw), None
+        ratio = float(raw)
         return bool(ratio <= 1.0), ratio if math.isfinite(ratio) and ratio > 0 else None
+
+    def ask_all(pairs: list[tuple[float, float]]) -> list[tuple[bool, float | None]]:
+        nonlocal calls
+        calls += len(pairs)
+        if feasible_many is not None and len(pairs) > 1:
+            return [answer(r) for r in feasible_many(pairs)]
+        return [answer(feasible(x, y)) for x, y in pairs]
+
+    def ask(a: float, b: float) -> tuple[bool, float | None]:
+        return ask_all([(a, b)])[0]
 
     def largest(a: float, lo_k: int, hi_k: int, guess: int) -> int:
         """Largest k in [lo_k, hi_k] with a feasible strip of k steps (lo_k - 1 if none).
@@ -158,31 +171,45 @@ def greedy_strips(
         Every probe lies strictly inside the bracket (good, bad), so for a monotone oracle
         the answer is that of plain bisection whatever the probes. They are aimed where the
         oracle's ratio predicts the edge (``_aim``) while that keeps working, else
-        galloping from the guess (doubling steps) and then bisection.
+        galloping from the guess (doubling steps) and then bisection. With
+        ``feasible_many``, each round asks a companion probe too (the next width after an
+        aimed or first one, thirds instead of halves), answered side by side.
         """
         good, bad = lo_k - 1, hi_k + 1
         ratios: dict[int, float] = {}
         probe = min(max(guess, lo_k), hi_k)
+        companion = probe + 1
         stride, aimed = 1, 0
         while bad - good > 1:
-            passed, ratio = ask(a, a + probe * step)
-            if passed:
-                good = probe
-            else:
-                bad = probe
-            if ratio is not None:
-                ratios[probe] = ratio
+            ks = [probe]
+            if feasible_many is not None and good + 1 <= companion <= bad - 1:
+                ks = sorted({probe, companion})
+            for k, (passed, ratio) in zip(
+                ks, ask_all([(a, a + k * step) for k in ks]), strict=True
+            ):
+                if passed:
+                    good = max(good, k)
+                else:
+                    bad = min(bad, k)
+                if ratio is not None:
+                    ratios[k] = ratio
+            good = min(good, bad - 1)  # a non-monotone answer: trust the failing width
             if bad - good <= 1:
                 break
             nxt = _aim(ratios, good, bad) if aimed < 4 else None
             if nxt is not None:
                 aimed += 1
+                companion = nxt + 1
             elif bad > hi_k:  # no failing width known yet: gallop upward
                 nxt, stride = good + stride, 2 * stride
+                companion = good + stride
             elif good < lo_k:  # no passing width known yet: gallop downward
                 nxt, stride = bad - stride, 2 * stride
+                companion = bad - stride
             else:
                 nxt = (good + bad) // 2
+                third = max((bad - good) // 3, 1)
+                nxt, companion = good + third, bad - third
             probe = min(max(nxt, good + 1), bad - 1)
         return good
 
@@ -502,6 +529,7 @@ def _fit(fitter, target, region, block, transform, job, spacing, enough_mm=None)
         samples = sample_target(target, transform, region=region, density=FINAL_DENSITY)
     else:
         samples = sample_target(target, transform, region=region, spacing_mm=spacing)
+        samples = samples.merged()
     if len(samples) == 0 or np.all(samples.undercut):
         return None
     more = {} if enough_mm is None else {"enough_mm": enough_mm}
@@ -605,7 +633,10 @@ def split_pieces(
         guess = None
         if reach is not None and np.any(np.isfinite(reach)):
             guess = float(np.nanmedian(reach))
-        plan = greedy_strips(lo, hi, feasible, max_w, min_w, step, guess_mm=guess)
+        with forked(lambda ab, f=feasible: f(*ab)) as many:
+            plan = greedy_strips(
+                lo, hi, feasible, max_w, min_w, step, guess_mm=guess, feasible_many=many
+            )
         layout = _layout(surf, frame, plan.cuts, job, max_len)
         bound = strip_count_bound(hi - lo, _reach(analysis), max_w)
         trials.append((frame, plan, layout, bound))
@@ -658,10 +689,15 @@ def _build(surf, trial, target, job, fitter, report):
     bad_area = 0.0
     max_dev = 0.0
     tallest = max(s.size_mm[2] for s in job.stock)
-    for n, (k, poly, a, b) in enumerate(layout):
-        report("fit", n, len(layout))
+
+    def final(item):
+        _, poly, a, b = item
         block, transform = _place(surf, poly, frame, a, b, job)
-        fit = _fit(fitter, target, poly, block, transform, job, None)
+        return block, transform, _fit(fitter, target, poly, block, transform, job, None)
+
+    report("fit", 0, len(layout))
+    fits = pmap(final, layout, done=lambda n: report("fit", n, len(layout)))
+    for (k, poly, a, b), (block, transform, fit) in zip(layout, fits, strict=True):
         if fit is None:
             continue
         pid = f"P{len(pieces) + 1:02d}"
@@ -721,5 +757,4 @@ def _build(surf, trial, target, job, fitter, report):
         }
         outline = np.asarray(poly.exterior.coords)[:-1]
         pieces.append(Piece(pid, outline, frame, transform, block, fit, stock=None, extra=extra))
-    report("fit", len(layout), len(layout))
     return pieces, max_dev, findings, bad_area

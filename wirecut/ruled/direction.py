@@ -38,6 +38,7 @@ from wirecut.errors import JobError
 from wirecut.geometry.frames import DirectionFrame, rigid, to_plan
 from wirecut.ruled.fit import fit_cut
 from wirecut.ruled.sampling import TargetSamples, sample_target
+from wirecut.workers import pmap
 
 __all__ = [
     "DirectionChoice",
@@ -298,12 +299,17 @@ def search_direction(
         raise JobError("no wire direction candidates to score")
     first = DirectionFrame.from_angle(cands[0][0], up, side)
     base = _coarse_samples(target, first)
-    rows = []
-    for angle, source in cands:
+
+    def scored(angle: float):
         frame = DirectionFrame.from_angle(angle, up, side)
         rel = rigid(frame.rotation @ first.rotation.T, np.zeros(3))
         hint = predicted_width_mm(analysis, frame.wire_part, job)
-        feasible, worst, strips, pieces = _score(base.transformed(rel), job, hint)
+        return frame, hint, _score(base.transformed(rel), job, hint)
+
+    rows = []
+    results = pmap(scored, [angle for angle, _ in cands])
+    for (_, source), (frame, hint, score) in zip(cands, results, strict=True):
+        feasible, worst, strips, pieces = score
         rows.append(
             {
                 "angle_deg": round(math.degrees(frame.angle_rad), 3),

@@ -94,6 +94,32 @@ class TargetSamples:
             self.spacing_mm,
         )
 
+    def merged(self) -> TargetSamples:
+        """The samples with the copies of a point merged into its first (weights summed, so
+        areas are kept; normal and undercut flag of the first copy).
+
+        The lattice of every face holds its corners and edges, so a point shared by k faces
+        appears k times (six times at an inner vertex of a regular mesh, and most samples
+        are such vertices where the mesh is finer than the spacing). Copies add nothing to a
+        min-max fit but its size."""
+        if len(self) < 2:
+            return self
+        key = np.round(self.points / 1e-6).astype(np.int64)
+        uniq, first, inverse = np.unique(key, axis=0, return_index=True, return_inverse=True)
+        if len(uniq) == len(self):
+            return self
+        inverse = inverse.reshape(-1)
+        order = np.sort(first)
+        weights = np.bincount(inverse, weights=self.weights, minlength=len(uniq))
+        rank = np.empty(len(uniq), np.int64)
+        rank[np.argsort(first)] = np.arange(len(uniq))  # unique rows back in first-seen order
+        out = self.subset(order)
+        w = np.empty(len(uniq))
+        w[rank] = weights
+        return TargetSamples(
+            out.points, out.normals, w, out.undercut, out.plan_xy, out.face, self.spacing_mm
+        )
+
     def transformed(self, transform: np.ndarray) -> TargetSamples:
         """The same samples moved by a rigid 4x4 transform (points and normals)."""
         t = np.asarray(transform, float)

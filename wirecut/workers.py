@@ -1,0 +1,137 @@
+"""Independent pieces of work spread over the machine's cores.
+
+The planner's per-piece stages (the final fits, the cut programs and their replays) and the
+direction search's candidates do not depend on each other. :func:`pmap` runs such a stage in
+worker processes started by ``fork``: the children see the parent's target, job and closures
+as they are (nothing is pickled on the way in), and only each item's result comes back. The
+results are those of the serial loop, in order; a worker's exception is raised in the parent
+as it was raised in the child. :func:`forked` keeps such workers for a whole stage whose
+questions come one round at a time (the split's width search asks two strips per round).
+
+``WIRECUT_WORKERS`` sets the number of processes (default: the CPUs this process may use, at
+most 8); 1, a platform without ``fork``, or a call from inside a worker runs the plain loop.
+"""
+
+from __future__ import annotations
+
+import multiprocessing
+import os
+from collections.abc import Callable, Iterable, Iterator
+from concurrent.futures import ProcessPoolExecutor
+from contextlib import contextmanager
+from typing import Any, TypeVar
+
+from wirecut.errors import JobError
+
+__all__ = ["pmap", "forked", "worker_count"]
+
+T = TypeVar("T")
+R = TypeVar("R")
+
+_MAX_WORKERS = 8
+_TASK: tuple[Callable[[Any], Any], list[Any]] | None = None
+_IN_WORKER = False
+
+
+def worker_count() -> int:
+    """Processes :func:`pmap` uses: ``WIRECUT_WORKERS`` or the usable CPUs (at most 8)."""
+    raw = os.environ.get("WIRECUT_WORKERS", "").strip()
+    if raw:
+        try:
+            n = int(raw)
+        except ValueError:
+            raise JobError(f"WIRECUT_WORKERS must be a whole number, got {raw!r}") from None
+        if n < 1:
+            raise JobError(f"WIRECUT_WORKERS must be at least 1, got {n}")
+        return n
+    try:
+        cpus = len(os.sched_getaffinity(0))
+    except (AttributeError, OSError):
+        cpus = os.cpu_count() or 1
+    return max(1, min(cpus, _MAX_WORKERS))
+
+
+def _mark_worker() -> None:
+    global _IN_WORKER
+    _IN_WORKER = True
+
+
+def _run(i: int) -> Any:
+    fn, items = _TASK  # type: ignore[misc]
+    return fn(items[i])
+
+
+def _call(arg: Any) -> Any:
+    fn, _ = _TASK  # type: ignore[misc]
+    return fn(arg)
+
+
+def _serial() -> bool:
+    return (
+        worker_count() <= 1
+        or _IN_WORKER
+        or _TASK is not None
+        or "fork" not in multiprocessing.get_all_start_methods()
+    )
+
+
+@contextmanager
+def forked(fn: Callable[[T], R]) -> Iterator[Callable[[list[T]], list[R]]]:
+    """A pool of forked workers kept for a whole stage: yields ``many(args) -> [fn(a) ...]``.
+
+    ``fn`` (a closure is fine) is inherited by the workers when they start; only the small
+    arguments and the results travel. Serial (a plain loop) where :func:`pmap` would be.
+    """
+    global _TASK
+    if _serial():
+        yield lambda args: [fn(a) for a in args]
+        return
+    _TASK = (fn, [])
+    ctx = multiprocessing.get_context("fork")
+    pool = ProcessPoolExecutor(worker_count(), mp_context=ctx, initializer=_mark_worker)
+    try:
+        yield lambda args: list(pool.map(_call, list(args)))
+    finally:
+        pool.shutdown(wait=True, cancel_futures=True)
+        _TASK = None
+
+
+def pmap(
+    fn: Callable[[T], R],
+    items: Iterable[T],
+    done: Callable[[int], None] | None = None,
+) -> list[R]:
+    """``[fn(x) for x in items]``, spread over worker processes where that can help.
+
+    Parameters
+    ----------
+    fn : callable
+        Any callable, closures included (the workers inherit it by ``fork``); its result
+        must be picklable.
+    items : iterable
+        The inputs; also inherited, never pickled.
+    done : callable (int) -> None, optional
+        Told how many results are in, in order, as they arrive (for progress bars).
+    """
+    global _TASK
+    items = list(items)
+    workers = min(worker_count(), len(items))
+    if workers <= 1 or _serial():
+        out = []
+        for x in items:
+            out.append(fn(x))
+            if done is not None:
+                done(len(out))
+        return out
+    _TASK = (fn, items)
+    try:
+        ctx = multiprocessing.get_context("fork")
+        with ProcessPoolExecutor(workers, mp_context=ctx, initializer=_mark_worker) as pool:
+            out = []
+            for result in pool.map(_run, range(len(items))):
+                out.append(result)
+                if done is not None:
+                    done(len(out))
+            return out
+    finally:
+        _TASK = None
