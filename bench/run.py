@@ -168,7 +168,14 @@ def accuracy_and_quality(work: Path) -> tuple[str, str]:
             rep = replay_report(replay(prog, pp.piece.block, job, pp.samples), pp.samples,
                                 job.tolerance.surface_mm)  # fmt: skip
             # brute force: denser samples, exact closest points on the replayed surface mesh
-            surf = replay_cut_surface(prog, pp.piece.block, job)
+            # section planes about as far apart as the points along a section, so that the
+            # triangles between them are not long slivers (trimesh's closest-point query
+            # gathers candidates by bounding box: slivers made it run out of memory)
+            first = replay_cut_surface(prog, pp.piece.block, job)
+            seg = float(np.median(np.linalg.norm(np.diff(first.cut[0], axis=0), axis=1)))
+            width = float(pp.piece.block.z_mm[1] - pp.piece.block.z_mm[0])
+            planes = int(np.clip(np.ceil(width / max(4.0 * seg, 1.0)), 9, 400))
+            surf = replay_cut_surface(prog, pp.piece.block, job, planes=planes)
             v, f = _section_mesh(surf.cut, surf.z_mm)
             from wirecut.ruled.sampling import sample_target
 

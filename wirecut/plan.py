@@ -47,10 +47,11 @@ def _no_progress(stage: str, done: int, total: int) -> None:
 
 def check_samples(target, part_to_machine: np.ndarray, region):
     """Target samples (machine frame) on which a piece's program is judged, by ``plan`` and by
-    ``simulate`` alike: :data:`CHECK_DENSITY` times the default sampling, as the final fits."""
+    ``simulate`` alike: :data:`CHECK_DENSITY` times the default sampling, as the final fits,
+    with the copies of a point that faces share merged (``TargetSamples.merged``)."""
     from wirecut.ruled.sampling import sample_target
 
-    return sample_target(target, part_to_machine, region, density=CHECK_DENSITY)
+    return sample_target(target, part_to_machine, region, density=CHECK_DENSITY).merged()
 
 
 def _piece_samples(target, piece):
@@ -171,10 +172,12 @@ def make_plan(
     from wirecut.pieces.split import split_pieces
     from wirecut.pieces.stock import allocate
     from wirecut.ruled.direction import search_direction
+    from wirecut.ruled.sampling import prepare_sampling
     from wirecut.workers import pmap
 
     progress = progress or _no_progress
     findings: list[Finding] = list(intake_findings)
+    prepare_sampling(target)  # before any worker process is forked
     progress("analysis", 0, 1)
     analysis = analyse_surface(target, job)
     progress("analysis", 1, 1)

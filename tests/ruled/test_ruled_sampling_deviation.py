@@ -169,3 +169,41 @@ def test_report_json_has_the_plan_keys_and_bad_input_is_refused():
         fit_cut(s, 100.0, 200.0, np.eye(4), ToleranceSpec(0.5))  # no samples between the faces
     with pytest.raises(JobError, match="z_left < z_right"):
         fit_cut(s, 40.0, 0.0, np.eye(4), ToleranceSpec(0.5))
+
+
+def test_merged_samples_keep_area_and_distinct_points() -> None:
+    # copies of a shared vertex merge into the first, weights summed: the same area, the
+    # same distinct points, in first-seen order (construction)
+    from wirecut.ruled.sampling import TargetSamples
+
+    pts = np.array([[0, 0, 0], [1, 0, 0], [0, 0, 0], [2, 0, 0], [1, 0, 0]], float)
+    n = len(pts)
+    s = TargetSamples(
+        pts, np.tile([0.0, 1.0, 0.0], (n, 1)), np.array([1.0, 2.0, 3.0, 4.0, 5.0]),
+        np.zeros(n, bool), pts[:, :2], np.arange(n), 1.0,
+    )  # fmt: skip
+    m = s.merged()
+    assert np.array_equal(m.points, pts[[0, 1, 3]])
+    assert np.array_equal(m.weights, [4.0, 7.0, 4.0])
+    assert np.array_equal(m.face, [0, 1, 3])
+    assert m.area_mm2 == s.area_mm2
+
+
+def test_thinned_samples_keep_area_and_outline() -> None:
+    # one weighted sample per cell carrying the cell's weight; zero-weight (outline) samples
+    # all kept (construction)
+    from wirecut.ruled.sampling import TargetSamples
+
+    rng = np.random.default_rng(4)
+    xy = rng.uniform(0.0, 100.0, (2000, 2))
+    pts = np.column_stack([xy, np.zeros(len(xy))])
+    w = rng.uniform(0.5, 1.5, len(xy))
+    w[:50] = 0.0
+    n = len(xy)
+    s = TargetSamples(pts, np.tile([0.0, 1.0, 0.0], (n, 1)), w, np.zeros(n, bool), xy,
+                      np.arange(n), 1.0)  # fmt: skip
+    t = s.thinned(10.0)
+    assert np.isclose(t.area_mm2, s.area_mm2)
+    assert (t.weights == 0).sum() == 50
+    cells = {tuple(c) for c in np.floor((t.plan_xy[t.weights > 0] - xy[w > 0].min(0)) / 10.0)}
+    assert len(cells) == (t.weights > 0).sum() <= 100

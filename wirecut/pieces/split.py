@@ -526,10 +526,13 @@ def _fit(fitter, target, region, block, transform, job, spacing, enough_mm=None)
     from wirecut.ruled.sampling import sample_target
 
     if spacing is None:
-        samples = sample_target(target, transform, region=region, density=FINAL_DENSITY)
+        samples = sample_target(target, transform, region=region, density=FINAL_DENSITY).merged()
     else:
-        samples = sample_target(target, transform, region=region, spacing_mm=spacing)
-        samples = samples.merged()
+        samples = sample_target(target, transform, region=region, spacing_mm=spacing).merged()
+        if len(samples) > 4.0 * region.area / spacing**2:
+            # a mesh much finer than the spacing (its lattice is its vertices): about two
+            # samples per spacing squared, as the lattice of a coarser mesh would give
+            samples = samples.thinned(0.5 * spacing)
     if len(samples) == 0 or np.all(samples.undercut):
         return None
     more = {} if enough_mm is None else {"enough_mm": enough_mm}

@@ -36,7 +36,14 @@ import shapely
 from wirecut.errors import MeshError
 from wirecut.geometry.frames import apply, to_plan
 
-__all__ = ["TargetSamples", "sample_target", "default_spacing", "spacing_for", "MAX_DIVISIONS"]
+__all__ = [
+    "TargetSamples",
+    "sample_target",
+    "prepare_sampling",
+    "default_spacing",
+    "spacing_for",
+    "MAX_DIVISIONS",
+]
 
 #: Largest lattice division of one face; a face needing more is a sign of a wrong spacing.
 MAX_DIVISIONS = 256
@@ -105,20 +112,45 @@ class TargetSamples:
         if len(self) < 2:
             return self
         key = np.round(self.points / 1e-6).astype(np.int64)
-        uniq, first, inverse = np.unique(key, axis=0, return_index=True, return_inverse=True)
-        if len(uniq) == len(self):
+        # stable sort by (x, y, z) keys, then by index: each run of equal keys is one point
+        order = np.lexsort((np.arange(len(key)), key[:, 2], key[:, 1], key[:, 0]))
+        k = key[order]
+        starts = np.r_[True, np.any(k[1:] != k[:-1], axis=1)]
+        if starts.all():
             return self
-        inverse = inverse.reshape(-1)
-        order = np.sort(first)
-        weights = np.bincount(inverse, weights=self.weights, minlength=len(uniq))
-        rank = np.empty(len(uniq), np.int64)
-        rank[np.argsort(first)] = np.arange(len(uniq))  # unique rows back in first-seen order
-        out = self.subset(order)
-        w = np.empty(len(uniq))
-        w[rank] = weights
+        group = np.cumsum(starts) - 1  # group of each sorted sample
+        first = order[starts]  # first copy of each point (lowest index: stable order)
+        weights = np.bincount(group, weights=self.weights[order], minlength=len(first))
+        seen = np.argsort(first, kind="stable")  # groups in first-seen order
+        out = self.subset(first[seen])
         return TargetSamples(
-            out.points, out.normals, w, out.undercut, out.plan_xy, out.face, self.spacing_mm
-        )
+            out.points, out.normals, weights[seen], out.undercut, out.plan_xy, out.face,
+            self.spacing_mm,
+        )  # fmt: skip
+
+    def thinned(self, cell_mm: float) -> TargetSamples:
+        """At most one weighted sample per plan cell of side ``cell_mm`` (the first in order,
+        carrying the whole cell's weight, so areas are kept), plus every zero-weight sample
+        (the region's outline, kept for the maximum). For a mesh much finer than the spacing
+        a coarse fit asks for, whose lattice is then just its vertices."""
+        cell = float(cell_mm)
+        weighted = np.flatnonzero(self.weights > 0)
+        if len(weighted) < 2 or not cell > 0:
+            return self
+        ij = np.floor((self.plan_xy[weighted] - self.plan_xy[weighted].min(axis=0)) / cell)
+        ij = ij.astype(np.int64)
+        key = ij[:, 0] * (int(ij[:, 1].max()) + 1) + ij[:, 1]
+        uniq, first, inverse = np.unique(key, return_index=True, return_inverse=True)
+        keep = weighted[first]
+        weights = self.weights.copy()
+        weights[keep] = np.bincount(inverse.reshape(-1), weights=self.weights[weighted])
+        mask = self.weights <= 0
+        mask[keep] = True
+        out = self.subset(mask)
+        return TargetSamples(
+            out.points, out.normals, weights[mask], out.undercut, out.plan_xy, out.face,
+            max(self.spacing_mm, cell),
+        )  # fmt: skip
 
     def transformed(self, transform: np.ndarray) -> TargetSamples:
         """The same samples moved by a rigid 4x4 transform (points and normals)."""
@@ -190,6 +222,21 @@ class _Prepared:
         self.tri_plan = to_plan(self.tri.reshape(-1, 3), self.up).reshape(-1, 3, 2)
         self.box_lo = self.tri_plan.min(axis=1)
         self.box_hi = self.tri_plan.max(axis=1)
+        a, b, c = self.tri_plan[:, 0], self.tri_plan[:, 1], self.tri_plan[:, 2]
+        self.det = (b[:, 0] - a[:, 0]) * (c[:, 1] - a[:, 1]) - (b[:, 1] - a[:, 1]) * (
+            c[:, 0] - a[:, 0]
+        )
+        self._tree: tuple[shapely.STRtree, np.ndarray] | None = None
+
+    def plan_tree(self) -> tuple[shapely.STRtree, np.ndarray]:
+        """Search tree of the plan triangles that are not edge-on, and their face indices
+        (built on first use)."""
+        if self._tree is None:
+            usable = np.flatnonzero(np.abs(self.det) > 1e-9)
+            tri = self.tri_plan[usable]
+            polys = shapely.polygons(np.concatenate([tri, tri[:, :1]], axis=1))
+            self._tree = (shapely.STRtree(polys), usable)
+        return self._tree
 
     def faces_near(self, region: shapely.Geometry) -> np.ndarray:
         """Ascending indices of the faces whose plan bounding box meets the region's."""
@@ -224,27 +271,31 @@ def default_spacing(target: Any, density: float = 1.0) -> float:
     return float(np.clip(_prepared(target).median_edge, 1.0, 20.0)) / math.sqrt(density)
 
 
+def prepare_sampling(target: Any) -> None:
+    """Compute once what sampling ``target`` needs (its triangles, plan search tree), so that
+    worker processes forked afterwards inherit it instead of each building its own."""
+    _prepared(target).plan_tree()
+
+
 def _boundary_samples(
-    region: shapely.Geometry, tri_plan: np.ndarray, spacing: float
+    region: shapely.Geometry, prep: _Prepared, spacing: float
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Zero-weight samples on the region's outline: (face index, barycentric (k, 2), plan xy)."""
     outline = shapely.segmentize(region.boundary, spacing)
     pts = shapely.get_coordinates(outline)
     if len(pts) == 0:
         return np.zeros(0, int), np.zeros((0, 2)), np.zeros((0, 2))
-    a, b, c = tri_plan[:, 0], tri_plan[:, 1], tri_plan[:, 2]
-    det = (b[:, 0] - a[:, 0]) * (c[:, 1] - a[:, 1]) - (b[:, 1] - a[:, 1]) * (c[:, 0] - a[:, 0])
-    usable = np.flatnonzero(np.abs(det) > 1e-9)
+    tree, usable = prep.plan_tree()
     if len(usable) == 0:
         return np.zeros(0, int), np.zeros((0, 2)), np.zeros((0, 2))
-    polys = shapely.polygons(np.concatenate([tri_plan[usable], tri_plan[usable, :1]], axis=1))
-    tree = shapely.STRtree(polys)
     ip, it = tree.query(shapely.points(pts), predicate="intersects")
     f = usable[it]
     p = pts[ip]
-    d = det[f]
-    u = ((p[:, 0] - a[f, 0]) * (c[f, 1] - a[f, 1]) - (p[:, 1] - a[f, 1]) * (c[f, 0] - a[f, 0])) / d
-    v = ((b[f, 0] - a[f, 0]) * (p[:, 1] - a[f, 1]) - (b[f, 1] - a[f, 1]) * (p[:, 0] - a[f, 0])) / d
+    tri_plan = prep.tri_plan
+    a, b, c = tri_plan[f, 0], tri_plan[f, 1], tri_plan[f, 2]
+    d = prep.det[f]
+    u = ((p[:, 0] - a[:, 0]) * (c[:, 1] - a[:, 1]) - (p[:, 1] - a[:, 1]) * (c[:, 0] - a[:, 0])) / d
+    v = ((b[:, 0] - a[:, 0]) * (p[:, 1] - a[:, 1]) - (b[:, 1] - a[:, 1]) * (p[:, 0] - a[:, 0])) / d
     bary = np.clip(np.column_stack([u, v]), 0.0, 1.0)
     return f, bary, p
 
@@ -316,7 +367,7 @@ def sample_target(
     if pts_parts:
         points = np.concatenate(pts_parts)
         weights = np.concatenate(w_parts)
-        face = np.concatenate(f_parts)
+        face = near[np.concatenate(f_parts)]  # indices into the whole target
     else:
         points, weights, face = np.zeros((0, 3)), np.zeros(0), np.zeros(0, np.int64)
     plan = to_plan(points, up)
@@ -324,16 +375,15 @@ def sample_target(
     if region is not None:
         keep = shapely.intersects_xy(region, plan[:, 0], plan[:, 1])
         points, weights, face, plan = points[keep], weights[keep], face[keep], plan[keep]
-        bf, bary, bplan = _boundary_samples(region, prep.tri_plan[near], spacing)
+        bf, bary, bplan = _boundary_samples(region, prep, spacing)
         if len(bf):
-            t = tri[bf]
+            t = prep.tri[bf]
             bp = t[:, 0] + bary[:, :1] * (t[:, 1] - t[:, 0]) + bary[:, 1:] * (t[:, 2] - t[:, 0])
             points = np.concatenate([points, bp])
             weights = np.concatenate([weights, np.zeros(len(bf))])
             face = np.concatenate([face, bf])
             plan = np.concatenate([plan, bplan])
 
-    face = near[face]  # indices into the whole target
     rot = transform[:3, :3]
     machine_normals = normals[face] @ rot.T
     return TargetSamples(
