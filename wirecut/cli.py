@@ -150,7 +150,17 @@ def check(
 # --------------------------------------------------------------------------- plan
 
 
-def _run_plan(mesh: Path, jobp, out: Path, units, console: _Console, json_stdout: bool) -> int:
+def _run_plan(
+    mesh: Path,
+    jobp,
+    out: Path,
+    units,
+    console: _Console,
+    json_stdout: bool,
+    shown: Path | None = None,
+) -> int:
+    """Plan ``mesh`` into ``out``; ``shown`` is where the files end up when ``out`` is a
+    temporary folder moved into place later (the demo's), for the closing message."""
     from wirecut.export.safe_output import check_output_dir, output_dir
     from wirecut.geometry.mesh import load_target
     from wirecut.plan import make_plan, write_plan
@@ -165,7 +175,7 @@ def _run_plan(mesh: Path, jobp, out: Path, units, console: _Console, json_stdout
     for line in plan.table():
         console.out(line)
     _print_findings(console, plan.findings)
-    console.out(f"Wrote {out}/plan.json, report.html, gcode/, pieces.dxf")
+    console.out(f"Wrote {shown or out}/plan.json, report.html, gcode/, pieces.dxf")
     return _exit_for(plan.findings)
 
 

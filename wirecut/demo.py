@@ -46,5 +46,6 @@ def run_demo(out: Path, console, run_plan) -> int:
     with output_dir(out) as tmp:
         for mesh in parts:
             console.out(f"== demo part {mesh.stem}")
-            worst = max(worst, run_plan(mesh, job, tmp / mesh.stem, None, console, False))
+            code = run_plan(mesh, job, tmp / mesh.stem, None, console, False, out / mesh.stem)
+            worst = max(worst, code)
     return worst

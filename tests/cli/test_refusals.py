@@ -217,3 +217,26 @@ def test_too_many_triangles_is_refused_with_how_to_decimate(tmp_path, capsys, mo
     code, err = _run(["plan", big, "--out", tmp_path / "o"], capsys)
     _assert_refused(code, err, "decimate")
     assert not (tmp_path / "o").exists()
+
+
+def test_demo_names_the_final_folder_of_each_part(tmp_path) -> None:
+    # the demo plans into a temporary folder moved into place at the end: the message of
+    # each part must name where its files end up, not the temporary folder
+    from wirecut.demo import demo_parts, run_demo
+
+    seen = []
+
+    def fake_plan(mesh, job, out, units, console, json_stdout, shown=None):
+        out.mkdir(parents=True)
+        seen.append((out, shown))
+        return 0
+
+    class Quiet:
+        def out(self, line: str) -> None:
+            pass
+
+    final = tmp_path / "demo_out"
+    assert run_demo(final, Quiet(), fake_plan) == 0
+    assert [shown for _, shown in seen] == [final / m.stem for m in demo_parts()]
+    assert all(final not in out.parents for out, _ in seen)
+    assert sorted(p.name for p in final.iterdir()) == sorted(m.stem for m in demo_parts())
