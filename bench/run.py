@@ -214,7 +214,7 @@ def accuracy_and_quality(work: Path) -> tuple[str, str]:
 def main() -> None:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--sizes", default="10000,100000,1000000")
-    ap.add_argument("--plan-sizes", default="10000,100000")  # a 1M plan exceeds ten minutes
+    ap.add_argument("--plan-sizes", default="10000,100000,1000000")
     ap.add_argument("--refusal-size", type=int, default=5_000_000)
     ap.add_argument("--skip-accuracy", action="store_true")
     ap.add_argument("--skip-speed", action="store_true")

@@ -226,3 +226,16 @@ def test_every_format_refuses_garbage(tmp_path, suffix, kind):
     path.write_bytes(data)
     with pytest.raises(MeshError, match=path.name):
         load_target(path, JOB)
+
+
+def test_unique_rows_is_numpys_unique() -> None:
+    # the vertex merge's own row dedup gives exactly np.unique(axis=0)'s first indices and
+    # inverse (numpy is the reference)
+    from wirecut.geometry.mesh import _unique_rows
+
+    rng = np.random.default_rng(7)
+    q = rng.integers(-4, 4, (5000, 3)).astype(np.int64)
+    _, first, inverse = np.unique(q, axis=0, return_index=True, return_inverse=True)
+    f, inv = _unique_rows(q)
+    assert np.array_equal(f, first)
+    assert np.array_equal(inv, inverse.ravel())

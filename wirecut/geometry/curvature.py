@@ -186,6 +186,53 @@ def _two_ring(faces: np.ndarray, n: int) -> sparse.csr_matrix:
     return two.tocsr()
 
 
+def _fit_chunk(vertices, normals, t1, t2, indptr, indices, start: int, stop: int) -> np.ndarray:
+    """Coefficients (stop - start, 9) of the height fits of vertices start..stop-1."""
+    lo, hi = indptr[start], indptr[stop]
+    cols = indices[lo:hi]
+    count = np.diff(indptr[start : stop + 1])
+    rows = np.repeat(np.arange(start, stop), count)
+    d = vertices[cols] - vertices[rows]
+    u = np.einsum("ij,ij->i", d, t1[rows])
+    v = np.einsum("ij,ij->i", d, t2[rows])
+    h = np.einsum("ij,ij->i", d, normals[rows])
+    # scale each row's coordinates by its neighbourhood size for conditioning
+    local = rows - start
+    scale = np.sqrt(np.bincount(local, weights=u * u + v * v, minlength=stop - start))
+    scale = np.where(scale > 0, scale / np.sqrt(np.maximum(count, 1)), 1.0)
+    s = scale[local]
+    us, vs, hs = u / s, v / s, h / s
+    # neighbours padded to a fixed width (extra ones beyond _MAX_RING dropped), zero rows
+    # are inert in the normal equations; one batched matrix product per chunk
+    pos = np.arange(hi - lo) - (indptr[start:stop] - lo)[local]
+    keep = pos < _MAX_RING
+    width = int(min(_MAX_RING, count.max() if len(count) else 1))
+    phi = np.zeros((stop - start, width, _NP))
+    rhs = np.zeros((stop - start, width))
+    li, pi = local[keep], pos[keep]
+    uk, vk = us[keep], vs[keep]
+    for col, val in enumerate(
+        (uk * uk, uk * vk, vk * vk, uk, vk, uk**3, uk * uk * vk, uk * vk * vk, vk**3)
+    ):
+        phi[li, pi, col] = val
+    rhs[li, pi] = hs[keep]
+    ata = np.matmul(phi.transpose(0, 2, 1), phi)
+    atb = np.matmul(phi.transpose(0, 2, 1), rhs[:, :, None])[:, :, 0]
+    count = np.minimum(count, _MAX_RING)
+    few = count < 12
+    ata[few, 5:, :] = 0.0
+    ata[few, :, 5:] = 0.0
+    ata[few, 5:, 5:] = np.eye(_NP - 5)
+    atb[few, 5:] = 0.0
+    # a tiny ridge keeps vertices with too few neighbours solvable (they come out flat)
+    ata += 1e-9 * np.eye(_NP)
+    sol = np.linalg.solve(ata, atb[:, :, None])[:, :, 0]
+    # h/s = (a s)(u/s)^2 + d (u/s) + (f s^2)(u/s)^3: undo the scaling
+    sol[:, :3] /= scale[:, None]
+    sol[:, 5:] /= (scale**2)[:, None]
+    return sol
+
+
 def _fit_quadrics(
     vertices: np.ndarray, normals: np.ndarray, ring: sparse.csr_matrix
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -197,55 +244,26 @@ def _fit_quadrics(
     neighbourhood is lopsided, near a boundary. Vertices with fewer than 12 neighbours use the
     first five terms only.
     """
+    from wirecut.workers import pmap, worker_count
+
     n = len(vertices)
     t1, t2 = tangent_frames(normals)
-    coef = np.zeros((n, _NP))
     indptr, indices = ring.indptr, ring.indices
-    for start in range(0, n, _CHUNK):
-        stop = min(n, start + _CHUNK)
-        lo, hi = indptr[start], indptr[stop]
-        cols = indices[lo:hi]
-        count = np.diff(indptr[start : stop + 1])
-        rows = np.repeat(np.arange(start, stop), count)
-        d = vertices[cols] - vertices[rows]
-        u = np.einsum("ij,ij->i", d, t1[rows])
-        v = np.einsum("ij,ij->i", d, t2[rows])
-        h = np.einsum("ij,ij->i", d, normals[rows])
-        # scale each row's coordinates by its neighbourhood size for conditioning
-        local = rows - start
-        scale = np.sqrt(np.bincount(local, weights=u * u + v * v, minlength=stop - start))
-        scale = np.where(scale > 0, scale / np.sqrt(np.maximum(count, 1)), 1.0)
-        s = scale[local]
-        us, vs, hs = u / s, v / s, h / s
-        # neighbours padded to a fixed width (extra ones beyond _MAX_RING dropped), zero rows
-        # are inert in the normal equations; one batched matrix product per chunk
-        pos = np.arange(hi - lo) - (indptr[start:stop] - lo)[local]
-        keep = pos < _MAX_RING
-        width = int(min(_MAX_RING, count.max() if len(count) else 1))
-        phi = np.zeros((stop - start, width, _NP))
-        rhs = np.zeros((stop - start, width))
-        li, pi = local[keep], pos[keep]
-        uk, vk = us[keep], vs[keep]
-        for col, val in enumerate(
-            (uk * uk, uk * vk, vk * vk, uk, vk, uk**3, uk * uk * vk, uk * vk * vk, vk**3)
-        ):
-            phi[li, pi, col] = val
-        rhs[li, pi] = hs[keep]
-        ata = np.matmul(phi.transpose(0, 2, 1), phi)
-        atb = np.matmul(phi.transpose(0, 2, 1), rhs[:, :, None])[:, :, 0]
-        count = np.minimum(count, _MAX_RING)
-        few = count < 12
-        ata[few, 5:, :] = 0.0
-        ata[few, :, 5:] = 0.0
-        ata[few, 5:, 5:] = np.eye(_NP - 5)
-        atb[few, 5:] = 0.0
-        # a tiny ridge keeps vertices with too few neighbours solvable (they come out flat)
-        ata += 1e-9 * np.eye(_NP)
-        sol = np.linalg.solve(ata, atb[:, :, None])[:, :, 0]
-        # h/s = (a s)(u/s)^2 + d (u/s) + (f s^2)(u/s)^3: undo the scaling
-        sol[:, :3] /= scale[:, None]
-        sol[:, 5:] /= (scale**2)[:, None]
-        coef[start:stop] = sol
+
+    def fit_range(span: tuple[int, int]) -> np.ndarray:
+        out = np.zeros((span[1] - span[0], _NP))
+        for start in range(span[0], span[1], _CHUNK):
+            stop = min(span[1], start + _CHUNK)
+            out[start - span[0] : stop - span[0]] = _fit_chunk(
+                vertices, normals, t1, t2, indptr, indices, start, stop
+            )
+        return out
+
+    # independent per vertex: large meshes are fitted in worker processes, a run each
+    runs = worker_count() if n >= 20 * _CHUNK else 1
+    edges = np.linspace(0, n, runs + 1).astype(int)
+    spans = [(int(a), int(b)) for a, b in zip(edges[:-1], edges[1:], strict=True) if b > a]
+    coef = np.concatenate(pmap(fit_range, spans)) if spans else np.zeros((0, _NP))
     return coef, t1, t2
 
 

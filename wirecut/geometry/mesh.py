@@ -343,6 +343,20 @@ def target_from_arrays(
     return _build(v, f.astype(np.int64), job, units, "arrays")
 
 
+def _unique_rows(q: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """``np.unique(q, axis=0, return_index=True, return_inverse=True)`` without the unique
+    rows themselves: (index of each unique row's first occurrence, in lexicographic row
+    order; the unique row of every input row). One stable lexsort instead of the structured
+    view np.unique sorts, several times faster on millions of rows."""
+    order = np.lexsort(q.T[::-1])
+    s = q[order]
+    starts = np.r_[True, np.any(s[1:] != s[:-1], axis=1)] if len(s) else np.zeros(0, bool)
+    group = np.cumsum(starts) - 1
+    inv = np.empty(len(q), np.int64)
+    inv[order] = group
+    return order[starts], inv
+
+
 def _build(
     vertices: np.ndarray, faces: np.ndarray, job: JobProfile, units: Units | None, name: str
 ) -> tuple[TargetSurface, list[Finding]]:
@@ -373,8 +387,7 @@ def _build(
     # merge duplicate vertices
     n_in, m_in = len(vertices), len(faces)
     q = np.round(vertices / (diag * 1e-9)).astype(np.int64)
-    _, first, inv = np.unique(q, axis=0, return_index=True, return_inverse=True)
-    inv = inv.ravel()
+    first, inv = _unique_rows(q)
     vertices = vertices[first]
     faces = inv[faces]
     # drop degenerate and duplicate faces
