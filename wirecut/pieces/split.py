@@ -483,11 +483,13 @@ def _place(
 def _coarse_spacing(surf: _Surface, area_mm2: float, job: JobProfile, kappa: float) -> float:
     """Lattice spacing (mm) for the bisection fits: about 4000 samples per strip, but fine
     enough that a smooth maximum is missed by at most 5 % of the tolerance,
-    ``h <= sqrt(8 * 0.05 * tol / kappa)`` (nearest lattice point to a smooth extremum)."""
+    ``h <= sqrt(8 * 0.05 * tol / kappa)`` (nearest lattice point to a smooth extremum). The
+    mesh's own edge length does not coarsen it: a fit deviates from a coarse mesh inside its
+    planar triangles too."""
     tol = job.tolerance.surface_mm
     h = math.sqrt(max(area_mm2, 1.0) / 4000.0)
     h = min(h, math.sqrt(8.0 * 0.05 * tol / max(kappa, 1e-9)))
-    return float(max(h, surf.edge_mm, 0.5))
+    return float(max(h, 0.5))
 
 
 def _kappa(analysis: Any) -> float:
@@ -522,7 +524,17 @@ def _default_fitter() -> Callable[..., Any]:
 FINAL_DENSITY = 4.0
 
 
-def _fit(fitter, target, region, block, transform, job, spacing, enough_mm=None):
+def _skew_of(fit: Any, transform: np.ndarray) -> tuple[np.ndarray, np.ndarray] | None:
+    """The ruling skew of a skewed fit as (sweep positions in the part plan, i.e. machine x
+    less the placement's x shift; skew = right face x - left face x), mm; None otherwise."""
+    if not getattr(fit, "skewed", False):
+        return None
+    cut = fit.cut
+    mid = 0.5 * (cut.left[:, 0] + cut.right[:, 0]) - float(transform[0, 3])
+    return mid, cut.right[:, 0] - cut.left[:, 0]
+
+
+def _fit(fitter, target, region, block, transform, job, spacing, enough_mm=None, skew_hint=None):
     from wirecut.ruled.sampling import sample_target
 
     if spacing is None:
@@ -536,6 +548,8 @@ def _fit(fitter, target, region, block, transform, job, spacing, enough_mm=None)
     if len(samples) == 0 or np.all(samples.undercut):
         return None
     more = {} if enough_mm is None else {"enough_mm": enough_mm}
+    if skew_hint is not None:
+        more["skew_hint"] = skew_hint
     try:
         return fitter(
             samples, block.z_mm[0], block.z_mm[1], transform, job.tolerance, x_range=block.x_mm,
@@ -620,29 +634,45 @@ def split_pieces(
         sweep, wire = plan_axes(frame, surf.up)
         lo, hi = extent_along(surf.fp, wire)
 
-        def feasible(a: float, b: float, frame=frame, wire=wire) -> float:
-            """The strip's coarse-fit deviation over its budget (feasible when <= 1); the
-            fit stops at the first cut within the budget."""
+        def probe(ab: tuple[float, float], frame=frame, wire=wire) -> tuple[float, Any]:
+            """(the strip's coarse-fit deviation over its budget, feasible when <= 1; the
+            skew of its rulings when they are skewed, as a hint for the pieces' final fits).
+            The fit stops at the first cut within the budget."""
+            a, b = ab
             region = strip(surf.fp, wire, a, b)
             if region.is_empty:
-                return 0.0
+                return 0.0, None
             block, transform = _place(surf, region, frame, a, b, job)
             spacing = _coarse_spacing(surf, region.area, job, kappa)
             allowed = budget * tol
             fit = _fit(fitter, target, region, block, transform, job, spacing, allowed)
-            return 0.0 if fit is None else float(fit.report.max_abs_mm) / allowed
+            if fit is None:
+                return 0.0, None
+            return float(fit.report.max_abs_mm) / allowed, _skew_of(fit, transform)
+
+        hints: dict[tuple[float, float], Any] = {}
+
+        def feasible(a: float, b: float, hints=hints, probe=probe) -> float:
+            ratio, hints[(a, b)] = probe((a, b))
+            return ratio
 
         reach = _reach(analysis)
         guess = None
         if reach is not None and np.any(np.isfinite(reach)):
             guess = float(np.nanmedian(reach))
-        with forked(lambda ab, f=feasible: f(*ab)) as many:
+        with forked(probe) as many:
+
+            def feasible_many(pairs, hints=hints, many=many):
+                out = many(pairs)
+                hints.update(zip(pairs, (h for _, h in out), strict=True))
+                return [r for r, _ in out]
+
             plan = greedy_strips(
-                lo, hi, feasible, max_w, min_w, step, guess_mm=guess, feasible_many=many
+                lo, hi, feasible, max_w, min_w, step, guess_mm=guess, feasible_many=feasible_many
             )
         layout = _layout(surf, frame, plan.cuts, job, max_len)
         bound = strip_count_bound(hi - lo, _reach(analysis), max_w)
-        trials.append((frame, plan, layout, bound))
+        trials.append((frame, plan, layout, bound, hints))
         report("split", len(trials), len(frames))
 
     fewest = min(len(t[2]) for t in trials)
@@ -663,7 +693,7 @@ def split_pieces(
         )
         for t in trials
     )
-    frame, plan, layout, bound = best
+    frame, plan, layout, bound, _ = best
     if plan.count < bound:
         findings.append(
             Finding(
@@ -686,7 +716,7 @@ def split_pieces(
 
 def _build(surf, trial, target, job, fitter, report):
     """Final pieces of one direction: blocks, full-density fits, volumes, findings."""
-    frame, plan, layout, _ = trial
+    frame, plan, layout, _, hints = trial
     pieces: list[Piece] = []
     findings: list[Finding] = []
     bad_area = 0.0
@@ -696,7 +726,11 @@ def _build(surf, trial, target, job, fitter, report):
     def final(item):
         _, poly, a, b = item
         block, transform = _place(surf, poly, frame, a, b, job)
-        return block, transform, _fit(fitter, target, poly, block, transform, job, None)
+        hint = hints.get((a, b))
+        if hint is not None:  # the strip's skew, from its frame to this piece's
+            hint = (hint[0] + transform[0, 3], hint[1])
+        fit = _fit(fitter, target, poly, block, transform, job, None, skew_hint=hint)
+        return block, transform, fit
 
     report("fit", 0, len(layout))
     fits = pmap(final, layout, done=lambda n: report("fit", n, len(layout)))

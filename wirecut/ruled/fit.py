@@ -263,6 +263,7 @@ def fit_cut(
     sweep_curvature_per_mm: float | None = None,
     correspondence: bool = True,
     enough_mm: float | None = None,
+    skew_hint: tuple[np.ndarray, np.ndarray] | None = None,
 ) -> RuledFit:
     """Fit a ruled cut between the faces ``z_left < z_right`` (mm, machine) to ``samples``.
 
@@ -289,6 +290,10 @@ def fit_cut(
         Skip step 3 when steps 1-2 already stay within this deviation (mm); default 10 % of
         the tolerance. A caller that only asks *whether* a cut within some error exists
         passes that error: the answer is the same, found sooner.
+    skew_hint : (x (k,), skew (k,)) mm, optional
+        Ruling skew (right face x minus left face x) at machine x positions, from a fit of a
+        region holding this one: step 3 also starts from it, and keeps whichever start ends
+        better.
 
     Returns
     -------
@@ -392,19 +397,33 @@ def fit_cut(
             y1 = _least_squares_heights(a, ys_, cs_, k)
             tried.append((float(np.sum((cs_ * (a @ y1 - ys_)) ** 2)), s, y1))
         cost, s, y1 = min(tried[1:], key=lambda e: e[0])
-        if not np.any(s) or cost >= _SEED_GAIN * tried[0][0]:
-            # no seeded skew beats vertical rulings: nothing for step 3 to start from
-            return RuledFit(cut, report, k, float(eps), int(iterations), h, skewed, samples)
+        starts = []
+        if np.any(s) and cost < _SEED_GAIN * tried[0][0]:
+            starts.append((s, y1))
+        if skew_hint is not None:
+            # the skew a fit of a larger region found (the split's strip): interpolated onto
+            # these knots, a start the seeds above may not reach on this region alone
+            hx, hs = (np.asarray(v, float) for v in skew_hint)
+            s = monotone_seed(np.interp(knots, hx, hs), dx, end_lb, end_ub)
+            if np.any(s):
+                flat = ruled_cut(knots - s / 2, knots + s / 2, s_zero, s_zero, z_left, z_right,
+                                 None)  # fmt: skip
+                a, _ = _design(flat, xs_, zs_)
+                starts.append((s, _least_squares_heights(a, ys_, cs_, k)))
         pts_sub = np.column_stack([x, yt, z])[sub]
-        s, y1, nfev = skew_solve(
-            pts_sub, c[sub], knots, s, y1, z_left, z_right, part_to_machine, end_lb, end_ub
-        )
-        iterations += nfev
-        cut3, eps3, rounds3, _ = linear_fit(s, y1)
-        iterations += rounds3
-        if cut3.is_monotone():
-            report3 = signed_deviation(cut3, samples, tolerance)
-            covered = int(report3.outside.sum()) <= int(report.outside.sum())
-            if covered and _merit(report3, policy) < _merit(report, policy):
-                cut, eps, report, skewed = cut3, eps3, report3, True
+        for s, y1 in starts:
+            s, y1, nfev = skew_solve(
+                pts_sub, c[sub], knots, s, y1, z_left, z_right, part_to_machine, end_lb, end_ub
+            )
+            iterations += nfev
+            # the solver keeps rulings apart by a penalty, which a strong pull can overcome
+            # by a little: clip to rulings that cannot cross (else the fit is thrown away)
+            s = monotone_seed(s, dx, end_lb, end_ub)
+            cut3, eps3, rounds3, _ = linear_fit(s, y1)
+            iterations += rounds3
+            if cut3.is_monotone():
+                report3 = signed_deviation(cut3, samples, tolerance)
+                covered = int(report3.outside.sum()) <= int(report.outside.sum())
+                if covered and _merit(report3, policy) < _merit(report, policy):
+                    cut, eps, report, skewed = cut3, eps3, report3, True
     return RuledFit(cut, report, k, float(eps), int(iterations), h, skewed, samples)
