@@ -397,9 +397,9 @@ def fit_cut(
             y1 = _least_squares_heights(a, ys_, cs_, k)
             tried.append((float(np.sum((cs_ * (a @ y1 - ys_)) ** 2)), s, y1))
         cost, s, y1 = min(tried[1:], key=lambda e: e[0])
-        starts = []
+        starts = []  # (skew, heights, refine by the joint solver first)
         if np.any(s) and cost < _SEED_GAIN * tried[0][0]:
-            starts.append((s, y1))
+            starts.append((s, y1, True))
         if skew_hint is not None:
             # the skew a fit of a larger region found (the split's strip): interpolated onto
             # these knots, a start the seeds above may not reach on this region alone
@@ -409,16 +409,21 @@ def fit_cut(
                 flat = ruled_cut(knots - s / 2, knots + s / 2, s_zero, s_zero, z_left, z_right,
                                  None)  # fmt: skip
                 a, _ = _design(flat, xs_, zs_)
-                starts.append((s, _least_squares_heights(a, ys_, cs_, k)))
+                y_h = _least_squares_heights(a, ys_, cs_, k)
+                # as it is (so the fit is never worse than that skew) and refined
+                starts += [(s, y_h, False), (s.copy(), y_h, True)]
         pts_sub = np.column_stack([x, yt, z])[sub]
-        for s, y1 in starts:
-            s, y1, nfev = skew_solve(
-                pts_sub, c[sub], knots, s, y1, z_left, z_right, part_to_machine, end_lb, end_ub
-            )
-            iterations += nfev
-            # the solver keeps rulings apart by a penalty, which a strong pull can overcome
-            # by a little: clip to rulings that cannot cross (else the fit is thrown away)
-            s = monotone_seed(s, dx, end_lb, end_ub)
+        for s, y1, refine in starts:
+            if refine:
+                s, y1, nfev = skew_solve(
+                    pts_sub, c[sub], knots, s, y1, z_left, z_right, part_to_machine, end_lb,
+                    end_ub,
+                )  # fmt: skip
+                iterations += nfev
+                # the solver keeps rulings apart by a penalty, which a strong pull can
+                # overcome by a little: clip to rulings that cannot cross (else the fit is
+                # thrown away)
+                s = monotone_seed(s, dx, end_lb, end_ub)
             cut3, eps3, rounds3, _ = linear_fit(s, y1)
             iterations += rounds3
             if cut3.is_monotone():
