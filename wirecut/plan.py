@@ -20,6 +20,10 @@ from wirecut.config import JobProfile
 from wirecut.errors import OutputError
 from wirecut.findings import Finding, Severity
 
+# the density (relative to the default sampling) programs are judged at, that of
+# wirecut.ruled.sampling.judging_samples, which the final fits use too
+from wirecut.ruled.sampling import JUDGING_DENSITY as CHECK_DENSITY
+
 __all__ = [
     "PiecePlan",
     "Plan",
@@ -31,13 +35,6 @@ __all__ = [
     "CHECK_DENSITY",
 ]
 
-#: Final fits and the judging of programs use samples this many times denser (per area) than
-#: the default rule: a min-max fit equalizes its error at the points it sees, and between them,
-#: mostly at the piece's edges, the error runs higher (measured on the demo's dome at the
-#: default density: up to 17 % against a brute force 4x denser). Same value as
-#: ``pieces.split.FINAL_DENSITY``.
-CHECK_DENSITY = 4.0
-
 Progress = Callable[[str, int, int], None]
 
 
@@ -47,26 +44,19 @@ def _no_progress(stage: str, done: int, total: int) -> None:
 
 def check_samples(target, part_to_machine: np.ndarray, region):
     """Target samples (machine frame) on which a piece's program is judged, by ``plan`` and by
-    ``simulate`` alike: :data:`CHECK_DENSITY` times the default sampling, as the final fits,
-    with the copies of a point that faces share merged (``TargetSamples.merged``)."""
-    from wirecut.ruled.sampling import sample_target
+    ``simulate`` alike (:func:`wirecut.ruled.sampling.judging_samples`)."""
+    from wirecut.ruled.sampling import judging_samples
 
-    return sample_target(target, part_to_machine, region, density=CHECK_DENSITY).merged()
+    return judging_samples(target, part_to_machine, region)
 
 
 def _piece_samples(target, piece):
     """The check samples of a piece: the samples its final fit was made on where the split
-    says they are the same (``extra["fit_on_check_samples"]``: same density and outline, moved
-    with the piece by :func:`_shifted`), else sampled afresh."""
-    from wirecut.ruled.sampling import default_spacing
-
+    says they are the same (``extra["fit_on_check_samples"]``: judging samples of the same
+    outline, moved with the piece by :func:`_shifted`), else sampled afresh."""
     own = getattr(piece.fit, "samples", None)
     extra = piece.extra if isinstance(piece.extra, dict) else {}
-    if (
-        own is not None
-        and extra.get("fit_on_check_samples")
-        and own.spacing_mm == default_spacing(target, CHECK_DENSITY)
-    ):
+    if own is not None and extra.get("fit_on_check_samples"):
         return own
     return check_samples(target, piece.part_to_machine, piece.region_plan)
 

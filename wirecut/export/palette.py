@@ -109,16 +109,16 @@ def worst_raster(
     ij = np.minimum(((p - lo) / cell).astype(int), shape - 1)
     flat = ij[:, 1] * shape[0] + ij[:, 0]
     value = np.full(shape[0] * shape[1], np.nan)
-    known = np.flatnonzero(np.isfinite(d))
+    finite = np.isfinite(d)
+    known = np.flatnonzero(finite)
     if len(known):
         # by cell, then by magnitude: the last of each cell's run is its worst sample
         order = known[np.lexsort((np.abs(d[known]), flat[known]))]
         fc = flat[order]
         last = np.flatnonzero(np.r_[fc[1:] != fc[:-1], True])
         value[fc[last]] = d[order[last]]
-    known_mask = np.isfinite(d)
     unknown = np.zeros(shape[0] * shape[1], bool)
-    unknown[flat[~known_mask]] = True
+    unknown[flat[~finite]] = True
     unknown &= ~np.isfinite(value)
     rows, cols = int(shape[1]), int(shape[0])
     extent = (float(lo[0]), float(lo[0] + cols * cell), float(lo[1]), float(lo[1] + rows * cell))

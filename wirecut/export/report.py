@@ -26,7 +26,7 @@ from pathlib import Path
 import numpy as np
 
 from wirecut.errors import OutputError
-from wirecut.export.palette import UNKNOWN, DeviationPicture, deviation_cmap, deviation_norm
+from wirecut.export.palette import DeviationPicture, deviation_colors
 from wirecut.workers import pmap, worker_count
 
 __all__ = ["PieceSheet", "ReportData", "SAFETY_CAUTIONS", "write_report"]
@@ -160,10 +160,6 @@ def _hms(seconds) -> str:
 # --------------------------------------------------------------------------- pictures
 
 
-def _cmap_norm(tol: float):
-    return deviation_cmap(), deviation_norm(tol)
-
-
 def _save(picture, path: Path) -> None:
     try:
         picture.save(path)
@@ -239,19 +235,14 @@ def _svg_paths(title: str, curves: list[tuple[np.ndarray, str, str]], box_xy=Non
 
 
 def _viewer_json(data: ReportData) -> str:
-    from matplotlib.colors import to_hex
-
     v = np.asarray(data.target_vertices, float).reshape(-1, 3)
     f = np.asarray(data.target_faces, np.int64).reshape(-1, 3)
     dev = np.asarray(data.target_deviation, float).reshape(-1)
     if len(f) > data.viewer_max_faces:
         f = f[:: int(math.ceil(len(f) / data.viewer_max_faces))]
     face_dev = dev[f].mean(axis=1) if len(f) else np.zeros(0)
-    cmap, norm = _cmap_norm(data.tolerance_mm)
-    rgba = cmap(norm(np.nan_to_num(face_dev)))
     colours = [
-        to_hex(c) if np.isfinite(d) else to_hex((UNKNOWN,) * 3)
-        for c, d in zip(rgba, face_dev, strict=True)
+        f"#{r:02x}{g:02x}{b:02x}" for r, g, b, _ in deviation_colors(face_dev, data.tolerance_mm)
     ]
     doc = {
         "v": [round(float(x), 1) for x in v.ravel()],

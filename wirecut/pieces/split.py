@@ -518,12 +518,6 @@ def _default_fitter() -> Callable[..., Any]:
     return fit_cut
 
 
-#: Samples per area of the final fit of each piece, relative to the default sampling rule: a
-#: min-max fit equalizes its error at the points it sees, so it must see enough of them at the
-#: piece's edges (see ``plan.CHECK_DENSITY``, the density its program is judged at).
-FINAL_DENSITY = 4.0
-
-
 def _skew_of(fit: Any, transform: np.ndarray) -> tuple[np.ndarray, np.ndarray] | None:
     """The ruling skew of a skewed fit as (sweep positions in the part plan, i.e. machine x
     less the placement's x shift; skew = right face x - left face x), mm; None otherwise."""
@@ -535,10 +529,10 @@ def _skew_of(fit: Any, transform: np.ndarray) -> tuple[np.ndarray, np.ndarray] |
 
 
 def _fit(fitter, target, region, block, transform, job, spacing, enough_mm=None, skew_hint=None):
-    from wirecut.ruled.sampling import sample_target
+    from wirecut.ruled.sampling import judging_samples, sample_target
 
     if spacing is None:
-        samples = sample_target(target, transform, region=region, density=FINAL_DENSITY).merged()
+        samples = judging_samples(target, transform, region)
     else:
         samples = sample_target(target, transform, region=region, spacing_mm=spacing).merged()
         if len(samples) > 4.0 * region.area / spacing**2:
@@ -788,8 +782,8 @@ def _build(surf, trial, target, job, fitter, report):
             "feasible": ok,
             "kept_volume_mm3": surf.kept(poly),
             "holes_plan": [np.asarray(r.coords)[:-1] for r in poly.interiors],
-            # the final fit's samples are the plan's check samples of this piece (same
-            # density and outline: plan.CHECK_DENSITY, no holes to add boundary samples)
+            # the final fit's samples are the plan's check samples of this piece (judging
+            # samples of the same outline; no holes to add boundary samples)
             "fit_on_check_samples": not poly.interiors,
         }
         outline = np.asarray(poly.exterior.coords)[:-1]

@@ -27,7 +27,7 @@ from __future__ import annotations
 
 import math
 import weakref
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Any
 
 import numpy as np
@@ -40,6 +40,8 @@ __all__ = [
     "TargetSamples",
     "sample_target",
     "prepare_sampling",
+    "judging_samples",
+    "JUDGING_DENSITY",
     "default_spacing",
     "spacing_for",
     "MAX_DIVISIONS",
@@ -47,6 +49,12 @@ __all__ = [
 
 #: Largest lattice division of one face; a face needing more is a sign of a wrong spacing.
 MAX_DIVISIONS = 256
+
+#: A piece's final fit and the judging of its program use samples this many times denser (per
+#: area) than the default rule: a min-max fit equalizes its error at the points it sees, and
+#: between them, mostly at the piece's edges, the error runs higher (measured on the demo's dome
+#: at the default density: up to 17 % against a brute force 4x denser).
+JUDGING_DENSITY = 4.0
 
 
 @dataclass(frozen=True)
@@ -122,11 +130,7 @@ class TargetSamples:
         first = order[starts]  # first copy of each point (lowest index: stable order)
         weights = np.bincount(group, weights=self.weights[order], minlength=len(first))
         seen = np.argsort(first, kind="stable")  # groups in first-seen order
-        out = self.subset(first[seen])
-        return TargetSamples(
-            out.points, out.normals, weights[seen], out.undercut, out.plan_xy, out.face,
-            self.spacing_mm,
-        )  # fmt: skip
+        return replace(self.subset(first[seen]), weights=weights[seen])
 
     def thinned(self, cell_mm: float) -> TargetSamples:
         """At most one weighted sample per plan cell of side ``cell_mm`` (the first in order,
@@ -146,11 +150,9 @@ class TargetSamples:
         weights[keep] = np.bincount(inverse.reshape(-1), weights=self.weights[weighted])
         mask = self.weights <= 0
         mask[keep] = True
-        out = self.subset(mask)
-        return TargetSamples(
-            out.points, out.normals, weights[mask], out.undercut, out.plan_xy, out.face,
-            max(self.spacing_mm, cell),
-        )  # fmt: skip
+        return replace(
+            self.subset(mask), weights=weights[mask], spacing_mm=max(self.spacing_mm, cell)
+        )
 
     def transformed(self, transform: np.ndarray) -> TargetSamples:
         """The same samples moved by a rigid 4x4 transform (points and normals)."""
@@ -395,3 +397,12 @@ def sample_target(
         face=face,
         spacing_mm=spacing,
     )
+
+
+def judging_samples(
+    target: Any, part_to_machine: np.ndarray, region: shapely.Geometry | np.ndarray
+) -> TargetSamples:
+    """The samples a piece is finally fitted on and its program judged on, by ``plan`` and
+    ``simulate`` alike: :data:`JUDGING_DENSITY` times the default sampling, with the copies of
+    a point that faces share merged (:meth:`TargetSamples.merged`)."""
+    return sample_target(target, part_to_machine, region, density=JUDGING_DENSITY).merged()
