@@ -45,3 +45,14 @@ def test_pictures_and_mesh_colours_agree() -> None:
     assert np.abs(mesh - pic).max() <= 3.0  # 256-entry lookup table vs exact interpolation
     assert mesh[0, 2] > mesh[0, 0] and mesh[-1, 0] > mesh[-1, 2]
     assert np.array_equal(mesh[0], mesh[2])  # beyond -tol held at the end colour
+
+
+def test_isolated_holes_are_filled_but_the_outside_is_not() -> None:
+    # a lattice with every 7th sample missing: no interior cell stays empty, and the raster
+    # does not grow past the samples (construction)
+    g = np.arange(60) * 2.0
+    xy = np.column_stack([a.ravel() for a in np.meshgrid(g, g)])
+    xy = xy[np.arange(len(xy)) % 7 != 3]
+    value, _, extent = worst_raster(xy, np.ones(len(xy)), cells=400)
+    assert np.isfinite(value).all()
+    assert extent[0] == 0.0 and extent[2] == 0.0 and extent[1] <= 118.0 + 4.0

@@ -328,3 +328,16 @@ def test_screenshot_is_not_blank(loaded):
     colours = np.unique(img.reshape(-1, 3), axis=0)
     assert img.shape[0] > 500 and img.shape[1] > 800
     assert len(colours) > 200  # text, tables and anti-aliasing: many distinct pixel values
+
+
+def test_colour_caption_says_what_the_palette_does(tmp_path):
+    # the caption's words and range are those of the one deviation scale (export.palette):
+    # red for + (foam left), blue for - (gouge), ends at +-tol
+    from wirecut.export.palette import deviation_colors
+
+    text = _write(tmp_path).read_text("utf-8")
+    tol = _data().tolerance_mm
+    assert "Red: foam left on the part" in text and "blue: gouge into the part" in text
+    assert f"±{tol:.3f} mm" in text
+    plus, minus = deviation_colors(np.array([tol, -tol]), tol)
+    assert plus[0] > plus[2] and minus[2] > minus[0]  # + red, - blue

@@ -9,8 +9,8 @@ no deviation is known. The ramp itself is our own.
 
 The pictures draw the samples as a plan raster, not as dots: each cell shows the sample of
 largest absolute deviation that falls in it (the worst, so a raster never hides an
-out-of-tolerance spot behind a better neighbour), and the cost is one pass over the samples
-whatever their number.
+out-of-tolerance spot behind a better neighbour; an empty cell among filled ones takes the
+worst of its neighbours), and the cost is one pass over the samples whatever their number.
 """
 
 from __future__ import annotations
@@ -122,7 +122,27 @@ def worst_raster(
     unknown &= ~np.isfinite(value)
     rows, cols = int(shape[1]), int(shape[0])
     extent = (float(lo[0]), float(lo[0] + cols * cell), float(lo[1]), float(lo[1] + rows * cell))
-    return value.reshape(rows, cols), unknown.reshape(rows, cols), extent
+    return _fill_holes(value.reshape(rows, cols)), unknown.reshape(rows, cols), extent
+
+
+def _fill_holes(value: np.ndarray) -> np.ndarray:
+    """Empty cells with at least five of their eight neighbours filled (holes between
+    irregular samples, not the outside of an outline) take the worst of those neighbours."""
+    rows, cols = value.shape
+    pad = np.pad(value, 1, constant_values=np.nan)
+    around = np.stack(
+        [pad[1 + di : 1 + di + rows, 1 + dj : 1 + dj + cols]
+         for di in (-1, 0, 1) for dj in (-1, 0, 1) if di or dj]
+    )  # fmt: skip
+    filled = np.isfinite(around)
+    hole = ~np.isfinite(value) & (filled.sum(axis=0) >= 5)
+    if not hole.any():
+        return value
+    mag = np.where(filled, np.abs(around), -1.0)
+    pick = np.take_along_axis(around, mag.argmax(axis=0)[None], axis=0)[0]
+    out = value.copy()
+    out[hole] = pick[hole]
+    return out
 
 
 class DeviationPicture:
@@ -180,6 +200,7 @@ class DeviationPicture:
     def show(self, xy, signed, outlines=(), labels=None, title: str = "") -> None:
         """Draw samples ``xy (n, 2)`` mm with deviations ``signed (n,)`` mm, the outlines
         ``(k, 2)`` mm with a label each (empty: none), and a title; replaces what was shown."""
+        from matplotlib.ticker import FixedLocator
         from mpl_toolkits.axes_grid1.anchored_artists import AnchoredSizeBar
 
         from wirecut.export.maps import scale_bar_length
@@ -215,6 +236,14 @@ class DeviationPicture:
                 )
         ax.set_xlim(x0, x1)
         ax.set_ylim(y0, y1)
+        # as many x ticks as labels of four or five digits fit across the drawn width (the
+        # axes keep the data's aspect, so a narrow piece is drawn narrow)
+        box = ax.get_position()
+        w_in, h_in = self.fig.get_size_inches()
+        shown = min(box.width * w_in, box.height * h_in * (x1 - x0) / max(y1 - y0, 1e-9))
+        step = _round_up((x1 - x0) / max(int(shown / 0.6), 2))
+        ax.xaxis.set_major_locator(FixedLocator(np.arange(np.ceil(x0 / step), x1 / step + 1e-9)
+                                                * step))  # fmt: skip
         bar = scale_bar_length(max(x1 - x0, y1 - y0))
         sizebar = AnchoredSizeBar(
             ax.transData,
@@ -232,3 +261,9 @@ class DeviationPicture:
     def save(self, path) -> None:
         """Write the picture as PNG (no software tag, no time: the same bytes every run)."""
         self.fig.savefig(path, format="png", metadata={"Software": None})
+
+
+def _round_up(x: float) -> float:
+    """The smallest of 1, 2, 5 times a power of ten that is at least ``x`` (> 0)."""
+    p = 10.0 ** math.floor(math.log10(max(x, 1e-12)))
+    return next(m * p for m in (1.0, 2.0, 5.0, 10.0) if m * p >= x - 1e-12)
