@@ -11,11 +11,10 @@ sweep. For fixed x-positions the cut height at a sample is linear in the 2K unkn
    equations of the area-weighted normal residuals, with a faint second-difference smoothing
    so strips without samples follow their neighbours.
 2. **Equal-error placement** (the min-max positioning used for flank milling of ruled
-   surfaces, Redonnet, Rubio & Dessein): a sparse LP (scipy ``linprog``, HiGHS) in the 2K
-   heights and a bound eps. ``balanced`` minimizes max |deviation|; ``no-gouge`` keeps every
-   deviation >= 0 and minimizes the largest excess. The LP holds a working set of samples (the
-   extreme residuals per strip and per slab of t) and adds the violated samples after each
-   solve (constraint generation) until all samples satisfy the bound.
+   surfaces, Redonnet, Rubio & Dessein): a sparse LP in the 2K heights and a bound eps,
+   solved by row generation in a live HiGHS model (:mod:`wirecut.ruled.minimax`).
+   ``balanced`` minimizes max |deviation|; ``no-gouge`` keeps every deviation >= 0 and
+   minimizes the largest excess.
 3. **Correspondence**: the skew ``s_k = xR_k - xL_k`` of each ruling (mid-plane knot fixed)
    is optimized jointly with the heights by Levenberg-Marquardt on the sparse normal
    equations of an analytic Jacobian (a sample depends only on the two rulings of its
@@ -43,12 +42,12 @@ from dataclasses import dataclass
 
 import numpy as np
 import scipy.sparse as sp
-from scipy.optimize import linprog
 from scipy.sparse.linalg import spsolve
 
 from wirecut.config import Policy, ToleranceSpec
 from wirecut.errors import JobError
 from wirecut.ruled.deviation import DeviationReport, evaluate_cut, signed_deviation
+from wirecut.ruled.minimax import cells, equal_error
 from wirecut.ruled.model import RuledCut
 from wirecut.ruled.sampling import TargetSamples
 from wirecut.ruled.skew import (
@@ -66,9 +65,6 @@ from wirecut.ruled.skew import (
 __all__ = ["RuledFit", "fit_cut", "estimate_sweep_curvature", "ruling_spacing_for"]
 
 _SMOOTH = 1e-3  # relative weight of the second-difference smoothing rows
-_LP_ROUNDS = 12
-_T_SLABS = 8
-_LP_ADD = 400  # besides the per-cell extremes, the worst violators added per LP round
 _MAX_LSQ_SAMPLES = 8_000
 _GOOD_ENOUGH = 0.1  # step 3 is skipped when steps 1-2 are already within 10 % of tol
 _SEED_GAIN = 0.98  # a seeded skew must lower the least-squares cost by 2 % to run step 3
@@ -163,83 +159,6 @@ def _least_squares_heights(a, yt, c, k) -> np.ndarray:
     lam2 = _SMOOTH**2 * float((c * c).sum()) / max(k, 1)
     lhs = (ac.T @ ac + lam2 * (reg.T @ reg) + 1e-12 * lam2 * sp.eye(2 * k)).tocsc()
     return np.asarray(spsolve(lhs, ac.T @ (c * yt)), float)
-
-
-def _cells(a_rows_strip: np.ndarray, t: np.ndarray) -> np.ndarray:
-    slab = np.clip((t * _T_SLABS).astype(int), 0, _T_SLABS - 1)
-    return a_rows_strip * _T_SLABS + slab
-
-
-def _extremes_per_cell(cell: np.ndarray, r: np.ndarray, among: np.ndarray) -> np.ndarray:
-    """Indices (into the full arrays) of the min and max of r per cell, over ``among``."""
-    idx = np.flatnonzero(among)
-    if len(idx) == 0:
-        return idx
-    order = idx[np.lexsort((r[idx], cell[idx]))]
-    cs = cell[order]
-    starts = np.flatnonzero(np.r_[True, cs[1:] != cs[:-1]])
-    ends = np.r_[starts[1:] - 1, len(order) - 1]
-    return np.unique(np.concatenate([order[starts], order[ends]]))
-
-
-def _equal_error(a, yt, ny, cell, y0, policy: Policy, tol: float):
-    """Step 2: the min-max LP with constraint generation. Returns (y, eps, rounds).
-
-    Variables: the 2K heights, one local bound e_j per strip and the global bound E >= e_j.
-    Objective ``M E + sum_j e_j`` (M = number of strips): the global maximum first, then every
-    strip's own maximum, which removes the freedom a pure min-max leaves to strips that do
-    not bind (they would otherwise float anywhere under E and violate unseen samples).
-    """
-    n, nv = a.shape
-    strips = cell // _T_SLABS
-    ns = int(strips.max()) + 1 if n else 1
-    used = np.asarray(abs(a).sum(axis=0)).ravel() > 0
-    r0 = ny * (a @ y0 - yt)
-    spread = float(np.abs(r0).max()) if n else 0.0
-    box = 4.0 * spread + 2.0 * tol + 1.0
-    lb = np.where(used, y0 - box, y0)
-    ub = np.where(used, y0 + box, y0)
-    bounds = list(zip(lb, ub, strict=True)) + [(0.0, None)] * (ns + 1)
-    cost = np.concatenate([np.zeros(nv), np.ones(ns), [float(ns)]])
-    # E >= e_j
-    cap = sp.hstack([sp.csr_matrix((ns, nv)), sp.eye(ns), -np.ones((ns, 1))]).tocsr()
-    work = _extremes_per_cell(cell, r0, np.ones(n, bool))
-    y, eps = y0, spread
-    local = np.full(ns, spread)
-    slack = 1e-7 + 1e-4 * tol
-    rounds = 0
-    while rounds < _LP_ROUNDS:
-        rounds += 1
-        m = len(work)
-        aw = sp.diags(ny[work]) @ a[work]
-        bw = ny[work] * yt[work]
-        pick = sp.csr_matrix((np.ones(m), (np.arange(m), strips[work])), shape=(m, ns))
-        zero = sp.csr_matrix((m, ns + 1))
-        tail = sp.hstack([pick, sp.csr_matrix((m, 1))])
-        if policy is Policy.NO_GOUGE:
-            # excess = aw y - bw <= e_j ; no gouge: -(aw y - bw) <= 0
-            rows = [sp.hstack([aw, -tail]), sp.hstack([-aw, zero])]
-        else:
-            rows = [sp.hstack([aw, -tail]), sp.hstack([-aw, -tail])]
-        a_ub = sp.vstack([*rows, cap]).tocsr()
-        b_ub = np.concatenate([bw, -bw, np.zeros(ns)])
-        res = linprog(cost, A_ub=a_ub, b_ub=b_ub, bounds=bounds, method="highs")
-        if res.status != 0 or res.x is None:
-            break
-        y, local, eps = res.x[:nv], res.x[nv : nv + ns], float(res.x[-1])
-        r = ny * (a @ y - yt)
-        limit = local[strips] + slack
-        if policy is Policy.NO_GOUGE:
-            bad = (r > limit) | (r < -slack)
-            over = np.maximum(r - limit, -r)
-        else:
-            bad = np.abs(r) > limit
-            over = np.abs(r) - limit
-        if not bad.any():
-            break
-        worst = np.flatnonzero(bad)[np.argsort(-over[bad], kind="stable")[:_LP_ADD]]
-        work = np.union1d(work, np.concatenate([_extremes_per_cell(cell, r, bad), worst]))
-    return y, eps, rounds
 
 
 def _merit(report: DeviationReport, policy: Policy) -> float:
@@ -355,8 +274,8 @@ def fit_cut(
         a, _ = _design(flat, x, z)
         y1 = _least_squares_heights(a, yt, c, k) if y_start is None else y_start
         j, _, t, _ = flat.strip_of(x, z)
-        cells = _cells(j, t)
-        y2, eps, rounds = _equal_error(a, yt, ny_t, cells, y1, policy, tol)
+        cell = cells(j, t)
+        y2, eps, rounds = equal_error(a, yt, ny_t, cell, y1, policy, tol)
         cut = ruled_cut(
             knots - s / 2, knots + s / 2, y2[:k], y2[k:], z_left, z_right, part_to_machine
         )
@@ -364,7 +283,7 @@ def fit_cut(
         if np.max(np.abs(ny_cut - ny_t)) > 1e-2 and eps <= 3.0 * tol:
             # the deviation is measured along the cut's normal: solve again with it (not
             # worth it far beyond the tolerance, where it cannot change what is within)
-            y2, eps, more = _equal_error(a, yt, ny_cut, cells, y2, policy, tol)
+            y2, eps, more = equal_error(a, yt, ny_cut, cell, y2, policy, tol)
             rounds += more
             cut = ruled_cut(
                 knots - s / 2, knots + s / 2, y2[:k], y2[k:], z_left, z_right, part_to_machine

@@ -36,6 +36,8 @@ __all__ = [
 
 _SMOOTH = 1e-3  # relative weight of the second-difference smoothing rows
 _LM_STEPS = 40
+_LM_SETTLED = 1e-3  # stop once a step lowers the cost by less than 0.1 %: the LP that follows
+# sets the heights anew, and the skews barely move past this point
 _SCAN_CANDIDATES = 61
 #: Largest skew change between neighbouring rulings, in knot spacings (crossing at 2).
 CROSSING = 1.95
@@ -234,22 +236,21 @@ def monotone_seed(s: np.ndarray, dx: float, lb: np.ndarray, ub: np.ndarray) -> n
 
 def skew_solve(pts, c, knots, s0, y0, z_left, z_right, m, lb, ub):
     """Joint least squares in (skew, heights): Levenberg-Marquardt (Levenberg 1944, Marquardt
-    1963) on the sparse normal equations of an analytic Jacobian, box bounds by projection.
-    Rulings are kept from crossing by hinge rows ``mu * max(|s_{k+1} - s_k| - 1.95 dX, 0)``
-    (the rulings k and k + 1 cross inside the block once ``|s_{k+1} - s_k| >= 2 dX``)."""
+    1963) on the sparse normal equations of an analytic Jacobian. Bounds and the rule that
+    rulings never cross (the rulings k and k + 1 cross inside the block once
+    ``|s_{k+1} - s_k| >= 2 dX``) are kept by projecting every trial skew with
+    :func:`monotone_seed` (neighbours within 1.95 dX), so the cost is always that of a cut the
+    machine can make. Knots evenly spaced."""
     k = len(knots)
     x, yt, z = pts[:, 0], pts[:, 1], pts[:, 2]
     d2 = second_difference(k)
     lam = 1e-2 * _SMOOTH * math.sqrt(float((c * c).sum()) / max(k, 1))
     reg = lam * sp.block_diag([d2, d2, d2]).tocsr()
     n = len(x)
-    gap = CROSSING * np.diff(knots)
-    mu = 10.0 * math.sqrt(float((c * c).sum()))
-    d1 = sp.diags([-1.0, 1.0], [0, 1], shape=(k - 1, 3 * k), format="csr")
+    dx = float(knots[1] - knots[0])
 
-    def hinge(v):
-        d = d1 @ v
-        return d, np.maximum(np.abs(d) - gap, 0.0)
+    def project(v):
+        return np.concatenate([monotone_seed(v[:k].copy(), dx, lb, ub), v[k:]])
 
     def parts(v):
         s, yl, yr = v[:k], v[k : 2 * k], v[2 * k :]
@@ -263,12 +264,14 @@ def skew_solve(pts, c, knots, s0, y0, z_left, z_right, m, lb, ub):
         return j, w, t, g, (1 - w) * y0_ + w * y1_
 
     def fun(v):
-        *_, yc = parts(v)
-        return np.concatenate([c * (yc - yt), reg @ v, mu * hinge(v)[1]])
+        # the parts are kept: the Jacobian is always asked at the last accepted point
+        part = parts(v)
+        return np.concatenate([c * (part[-1] - yt), reg @ v]), part
 
-    def jac(v):
-        j, w, t, g, _ = parts(v)
-        rows = np.repeat(np.arange(n), 6)
+    indptr = np.arange(0, 6 * n + 1, 6)
+
+    def jac(v, part):
+        j, w, t, g, _ = part
         cols = np.column_stack([j, j + 1, k + j, 2 * k + j, k + j + 1, 2 * k + j + 1]).ravel()
         tm = t - 0.5
         vals = np.column_stack(
@@ -281,38 +284,33 @@ def skew_solve(pts, c, knots, s0, y0, z_left, z_right, m, lb, ub):
                 w * t,
             ]
         )
-        data = sp.csr_matrix(((vals * c[:, None]).ravel(), (rows, cols)), shape=(n, 3 * k))
-        d, over = hinge(v)
-        active = sp.diags(mu * np.sign(d) * (over > 0)) @ d1
-        return sp.vstack([data, reg, active]).tocsr()
+        data = sp.csr_matrix(((vals * c[:, None]).ravel(), cols, indptr), shape=(n, 3 * k))
+        return sp.vstack([data, reg]).tocsr()
 
-    v = np.concatenate([s0, y0])
-    lo = np.concatenate([lb, np.full(2 * k, -np.inf)])
-    hi = np.concatenate([ub, np.full(2 * k, np.inf)])
-    v = np.clip(v, lo, hi)
-    r = fun(v)
+    v = project(np.concatenate([s0, y0]))
+    r, part = fun(v)
     cost = float(r @ r)
     mu = 1e-3
     evals = 1
     for _ in range(_LM_STEPS):
-        jm = jac(v)
+        jm = jac(v, part)
         jtj = (jm.T @ jm).tocsc()
         grad = jm.T @ r
         diag = jtj.diagonal() + 1e-12
         improved = False
         while mu < 1e8:
             step = spsolve(jtj + sp.diags(mu * diag), -grad)
-            trial = np.clip(v + step, lo, hi)
-            rt = fun(trial)
+            trial = project(v + step)
+            rt, pt = fun(trial)
             evals += 1
             ct = float(rt @ rt)
             if ct < cost:
                 improved = True
                 shrink = (cost - ct) / max(cost, 1e-300)
-                v, r, cost = trial, rt, ct
+                v, r, cost, part = trial, rt, ct, pt
                 mu = max(mu / 10.0, 1e-9)
                 break
             mu *= 10.0
-        if not improved or shrink < 1e-8 or cost < 1e-24:
+        if not improved or shrink < _LM_SETTLED or cost < 1e-24:
             break
     return v[:k], v[k:], evals
