@@ -43,7 +43,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import sparse
 
-from wirecut.geometry.mesh import TargetSurface, boundary_vertex_mask
+from wirecut.geometry.mesh import TargetSurface
 
 __all__ = ["Curvature", "vertex_curvature", "angle_defects", "mixed_areas", "tangent_frames"]
 
@@ -282,7 +282,7 @@ def vertex_curvature(target: TargetSurface) -> Curvature:
     """
     v, f = target.vertices, target.faces
     n = len(v)
-    boundary = boundary_vertex_mask(f, n)
+    boundary = target.boundary_vertices
     area = mixed_areas(v, f)
     defect = angle_defects(v, f)
     with np.errstate(divide="ignore", invalid="ignore"):

@@ -51,7 +51,9 @@ Undercut (per vertex)
 
 from __future__ import annotations
 
+import copy
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 from scipy.spatial import cKDTree
@@ -59,7 +61,7 @@ from scipy.spatial import cKDTree
 from wirecut.config import JobProfile, Policy
 from wirecut.geometry.curvature import Curvature, vertex_curvature
 from wirecut.geometry.frames import plan_basis, to_plan
-from wirecut.geometry.mesh import TargetSurface, edge_use
+from wirecut.geometry.mesh import TargetSurface
 from wirecut.geometry.occlusion import occluded_vertices
 
 __all__ = [
@@ -153,46 +155,53 @@ class SurfaceAnalysis:
         """The ``analysis`` dict of plan.json (docs: /work/shared/interface.md).
 
         Percentiles are weighted by vertex area; the curvature ones use interior vertices only.
+        Computed once (sorting a million reaches is not free); each call returns a copy.
         """
+        return copy.deepcopy(self._json)
+
+    @cached_property
+    def _json(self) -> dict:
         cu = self.curvature
         inside = cu.interior
         k = cu.gaussian[inside]
         wk = self.vertex_area[inside]
         if k.size:
+            p05, med, p95 = _weighted_percentile(k, wk, (5.0, 50.0, 95.0))
             gstats = {
                 "min": float(k.min()),
-                "p05": _weighted_percentile(k, wk, 5.0),
-                "median": _weighted_percentile(k, wk, 50.0),
-                "p95": _weighted_percentile(k, wk, 95.0),
+                "p05": p05,
+                "median": med,
+                "p95": p95,
                 "max": float(k.max()),
             }
         else:
             gstats = {key: None for key in ("min", "p05", "median", "p95", "max")}
         r, wr = self.wire_reach_mm, self.vertex_area
+        r05, r50, r95 = _weighted_percentile(r, wr, (5.0, 50.0, 95.0))
         return {
             "target_area_mm2": float(self.target_area_mm2),
             "gaussian_curvature_per_mm2": gstats,
             "developable_area_fraction": self._fraction(self.kind == DEVELOPABLE),
             "ruled_area_fraction": self._fraction(self.kind == RULED),
             "synclastic_area_fraction": self._fraction(self.kind == SYNCLASTIC),
-            "wire_reach_mm": {
-                "p05": _weighted_percentile(r, wr, 5.0),
-                "median": _weighted_percentile(r, wr, 50.0),
-                "p95": _weighted_percentile(r, wr, 95.0),
-            },
+            "wire_reach_mm": {"p05": r05, "median": r50, "p95": r95},
             "undercut_area_fraction": self._fraction(self.undercut),
         }
 
 
-def _weighted_percentile(values: np.ndarray, weights: np.ndarray, q: float) -> float:
-    """Percentile ``q`` (0..100) of ``values`` with ``weights`` (lower step of the weighted CDF)."""
+def _weighted_percentile(values: np.ndarray, weights: np.ndarray, q):
+    """Percentile ``q`` (0..100, a number or a sequence) of ``values`` with ``weights`` (lower
+    step of the weighted CDF); a sequence of q gives a list, from one sort."""
+    qs = np.atleast_1d(np.asarray(q, float))
     order = np.argsort(values, kind="stable")
     v, w = values[order], np.maximum(weights[order], 0.0)
     cdf = np.cumsum(w)
     if cdf[-1] <= 0:
-        return float(np.percentile(values, q))
-    i = int(np.searchsorted(cdf, q / 100.0 * cdf[-1], side="left"))
-    return float(v[min(i, len(v) - 1)])
+        out = [float(np.percentile(values, qq)) for qq in qs]
+    else:
+        i = np.searchsorted(cdf, qs / 100.0 * cdf[-1], side="left")
+        out = [float(v[min(int(ii), len(v) - 1)]) for ii in i]
+    return out if np.ndim(q) else out[0]
 
 
 def allowed_sagitta(tolerance_mm: float, policy: Policy) -> float:
@@ -418,7 +427,7 @@ class _SurfaceProbe:
 def _outward_boundary_directions(target: TargetSurface) -> np.ndarray:
     """(n, 3) unit tangent pointing out of the surface at boundary vertices; zero elsewhere."""
     v, f = target.vertices, target.faces
-    edges, counts, inverse = edge_use(f, len(v))
+    edges, counts, inverse = target.edge_use
     directed = np.stack([f, np.roll(f, -1, axis=1)], axis=2).reshape(-1, 2)
     third = np.roll(f, -2, axis=1).reshape(-1)
     lone = counts[inverse] == 1

@@ -137,6 +137,19 @@ class TargetSurface:
         return np.divide(acc, norm, out=np.zeros_like(acc), where=norm > 0)
 
     @cached_property
+    def edge_use(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """:func:`edge_use` of the faces (edges, counts, inverse), computed once."""
+        return edge_use(self.faces, len(self.vertices))
+
+    @cached_property
+    def boundary_vertices(self) -> np.ndarray:
+        """(n,) bool: vertices on an edge used by one face (or by more than two)."""
+        edges, counts, _ = self.edge_use
+        mask = np.zeros(len(self.vertices), bool)
+        mask[edges[counts != 2].ravel()] = True
+        return mask
+
+    @cached_property
     def mean_edge_mm(self) -> float:
         """Mean edge length, mm."""
         tri = self.vertices[self.faces]
@@ -204,7 +217,8 @@ def _orient_consistently(faces: np.ndarray, n_vertices: int) -> tuple[np.ndarray
     in opposite directions (f, g) and (f + m, g + m). Each face takes the state that lies in the
     same doubled component as the first face of its component as given.
 
-    Returns the re-wound faces (m, 3) and the component label of each face (m,).
+    Returns the re-wound faces (m, 3), the component label of each face (m,) and the number
+    of faces using each undirected edge (e,) (re-winding does not change it).
     """
     m = len(faces)
     directed = np.stack([faces, np.roll(faces, -1, axis=1)], axis=2).reshape(-1, 2)
@@ -230,7 +244,7 @@ def _orient_consistently(faces: np.ndarray, n_vertices: int) -> tuple[np.ndarray
     flip &= label2[np.arange(m)] != label2[np.arange(m) + m]
     out = faces.copy()
     out[flip] = out[flip][:, ::-1]
-    return out, comp
+    return out, comp, counts
 
 
 def _read_arrays(path: Path) -> tuple[np.ndarray, np.ndarray]:
@@ -421,9 +435,8 @@ def _build(
             )
         )
 
-    faces, comp = _orient_consistently(faces, len(vertices))
+    faces, comp, counts = _orient_consistently(faces, len(vertices))
     w = waste_direction(job.mold.up, job.mold.side)
-    _, counts, _ = edge_use(faces, len(vertices))
     closed = bool((counts == 2).all())
     tri = vertices[faces]
     cross = np.cross(tri[:, 1] - tri[:, 0], tri[:, 2] - tri[:, 0])
