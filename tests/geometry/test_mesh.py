@@ -239,3 +239,30 @@ def test_unique_rows_is_numpys_unique() -> None:
     f, inv = _unique_rows(q)
     assert np.array_equal(f, first)
     assert np.array_equal(inv, inverse.ravel())
+
+
+@pytest.mark.parametrize("up", [(0.0, 0.0, 1.0), (0.0, 0.0, -1.0)])
+def test_the_edge_table_handed_over_at_intake_is_the_faces_own(up) -> None:
+    # intake passes on the edge table of its orientation step (re-wound faces' edges
+    # permuted) instead of sorting again: it must equal edge_use of the final faces
+    from wirecut.geometry.mesh import edge_use
+
+    v, f = saddle(n=21)
+    rng = np.random.default_rng(3)
+    f = f.copy()
+    flip = rng.random(len(f)) < 0.5
+    f[flip] = f[flip][:, ::-1]
+    job = dataclasses.replace(JOB, mold=dataclasses.replace(JOB.mold, up=up))
+    target, _ = target_from_arrays(v, f, job)
+    assert "edge_use" in target.__dict__
+    for got, want in zip(
+        target.edge_use, edge_use(target.faces, len(target.vertices)), strict=True
+    ):
+        assert np.array_equal(got, want)
+
+
+def test_repeated_faces_any_winding_are_dropped() -> None:
+    from wirecut.geometry.mesh import _repeated_faces
+
+    f = np.array([[0, 1, 2], [2, 1, 0], [1, 2, 3], [3, 1, 2], [0, 2, 3]])
+    assert _repeated_faces(f, 4).tolist() == [False, True, False, True, False]

@@ -49,6 +49,8 @@ __all__ = ["Curvature", "vertex_curvature", "angle_defects", "mixed_areas", "tan
 
 _CHUNK = 10_000  # vertices per batch of the quadric fit
 _NP = 9  # coefficients of the cubic height fit
+# exponents (a, b) of its monomials u^a v^b, in coefficient order
+_EXPONENTS = ((2, 0), (1, 1), (0, 2), (1, 0), (0, 1), (3, 0), (2, 1), (1, 2), (0, 3))
 _MAX_RING = 32  # neighbours per vertex used by the fit at most
 
 
@@ -202,22 +204,30 @@ def _fit_chunk(vertices, normals, t1, t2, indptr, indices, start: int, stop: int
     scale = np.where(scale > 0, scale / np.sqrt(np.maximum(count, 1)), 1.0)
     s = scale[local]
     us, vs, hs = u / s, v / s, h / s
-    # neighbours padded to a fixed width (extra ones beyond _MAX_RING dropped), zero rows
-    # are inert in the normal equations; one batched matrix product per chunk
+    # neighbours beyond the first _MAX_RING of a vertex are dropped; the normal equations are
+    # sums over the neighbours of products of monomials u^a v^b, so they are assembled from
+    # the 25 moments sum u^a v^b (2 <= a + b <= 6) and the 9 sums h u^a v^b
     pos = np.arange(hi - lo) - (indptr[start:stop] - lo)[local]
     keep = pos < _MAX_RING
-    width = int(min(_MAX_RING, count.max() if len(count) else 1))
-    phi = np.zeros((stop - start, width, _NP))
-    rhs = np.zeros((stop - start, width))
-    li, pi = local[keep], pos[keep]
-    uk, vk = us[keep], vs[keep]
-    for col, val in enumerate(
-        (uk * uk, uk * vk, vk * vk, uk, vk, uk**3, uk * uk * vk, uk * vk * vk, vk**3)
-    ):
-        phi[li, pi, col] = val
-    rhs[li, pi] = hs[keep]
-    ata = np.matmul(phi.transpose(0, 2, 1), phi)
-    atb = np.matmul(phi.transpose(0, 2, 1), rhs[:, :, None])[:, :, 0]
+    m = stop - start
+    li, uk, vk, hk = local[keep], us[keep], vs[keep], hs[keep]
+    pu, pv = [np.ones_like(uk)], [np.ones_like(vk)]
+    for _ in range(6):
+        pu.append(pu[-1] * uk)
+        pv.append(pv[-1] * vk)
+    moment: dict[tuple[int, int], np.ndarray] = {}
+
+    def summed(a: int, b: int) -> np.ndarray:
+        if (a, b) not in moment:
+            moment[a, b] = np.bincount(li, weights=pu[a] * pv[b], minlength=m)
+        return moment[a, b]
+
+    ata = np.empty((m, _NP, _NP))
+    atb = np.empty((m, _NP))
+    for i, (ai, bi) in enumerate(_EXPONENTS):
+        atb[:, i] = np.bincount(li, weights=hk * pu[ai] * pv[bi], minlength=m)
+        for j, (aj, bj) in enumerate(_EXPONENTS[: i + 1]):
+            ata[:, i, j] = ata[:, j, i] = summed(ai + aj, bi + bj)
     count = np.minimum(count, _MAX_RING)
     few = count < 12
     ata[few, 5:, :] = 0.0

@@ -217,13 +217,13 @@ def _orient_consistently(faces: np.ndarray, n_vertices: int) -> tuple[np.ndarray
     in opposite directions (f, g) and (f + m, g + m). Each face takes the state that lies in the
     same doubled component as the first face of its component as given.
 
-    Returns the re-wound faces (m, 3), the component label of each face (m,) and the number
-    of faces using each undirected edge (e,) (re-winding does not change it).
+    Returns the re-wound faces (m, 3), the component label of each face (m,) and the
+    :func:`edge_use` of the re-wound faces.
     """
     m = len(faces)
     directed = np.stack([faces, np.roll(faces, -1, axis=1)], axis=2).reshape(-1, 2)
     forward = directed[:, 0] < directed[:, 1]
-    _, counts, inverse = edge_use(faces, n_vertices)
+    edges, counts, inverse = edge_use(faces, n_vertices)
     face_of = np.repeat(np.arange(m), 3)
     manifold = counts[inverse] == 2
     order = np.argsort(inverse[manifold], kind="stable")
@@ -244,7 +244,15 @@ def _orient_consistently(faces: np.ndarray, n_vertices: int) -> tuple[np.ndarray
     flip &= label2[np.arange(m)] != label2[np.arange(m) + m]
     out = faces.copy()
     out[flip] = out[flip][:, ::-1]
-    return out, comp, counts
+    return out, comp, (edges, counts, _rewound(inverse, flip))
+
+
+def _rewound(inverse: np.ndarray, flip: np.ndarray) -> np.ndarray:
+    """The edge_use inverse (3m,) after faces ``flip`` (m,) are re-wound ``[a, b, c] -> [c, b,
+    a]``: their directed edges (c, b), (b, a), (a, c) are the old edges 1, 0 and 2."""
+    inv = inverse.reshape(-1, 3).copy()
+    inv[flip] = inv[flip][:, [1, 0, 2]]
+    return inv.reshape(-1)
 
 
 def _read_arrays(path: Path) -> tuple[np.ndarray, np.ndarray]:
@@ -371,6 +379,19 @@ def _unique_rows(q: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return order[starts], inv
 
 
+def _repeated_faces(faces: np.ndarray, n_vertices: int) -> np.ndarray:
+    """(m,) bool: faces whose vertex set an earlier face already has (any winding)."""
+    s = np.sort(faces, axis=1).astype(np.int64)
+    if n_vertices < 2_000_000:  # n^3 < 2^63: one integer key per face, a 1D sort
+        key = (s[:, 0] * n_vertices + s[:, 1]) * n_vertices + s[:, 2]
+        _, first = np.unique(key, return_index=True)
+    else:
+        first, _ = _unique_rows(s)
+    rep = np.ones(len(faces), bool)
+    rep[first] = False
+    return rep
+
+
 def _build(
     vertices: np.ndarray, faces: np.ndarray, job: JobProfile, units: Units | None, name: str
 ) -> tuple[TargetSurface, list[Finding]]:
@@ -413,14 +434,11 @@ def _build(
         (faces[:, 0] == faces[:, 1]) | (faces[:, 1] == faces[:, 2]) | (faces[:, 0] == faces[:, 2])
     )
     keep = ~repeated & (area2 > 1e-12 * longest2) & (area2 > 0.0)
-    _, uniq_rows = np.unique(np.sort(faces, axis=1), axis=0, return_index=True)
-    dup = np.ones(len(faces), bool)
-    dup[uniq_rows] = False
-    keep &= ~dup
+    keep &= ~_repeated_faces(faces, len(vertices))
     faces = faces[keep]
     if len(faces) == 0:
         raise MeshError(f"{label} has zero total area (every face is degenerate)")
-    used = np.unique(faces)
+    used = np.flatnonzero(np.bincount(faces.ravel(), minlength=len(vertices)))
     remap = np.full(len(vertices), -1, np.int64)
     remap[used] = np.arange(len(used))
     vertices, faces = vertices[used], remap[faces]
@@ -435,7 +453,8 @@ def _build(
             )
         )
 
-    faces, comp, counts = _orient_consistently(faces, len(vertices))
+    faces, comp, edges_used = _orient_consistently(faces, len(vertices))
+    counts = edges_used[1]
     w = waste_direction(job.mold.up, job.mold.side)
     closed = bool((counts == 2).all())
     tri = vertices[faces]
@@ -449,7 +468,7 @@ def _build(
         if not facing.any():
             raise MeshError(f"{label} is a closed solid with no face looking toward the waste side")
         faces, normals = faces[facing], normals[facing]
-        used = np.unique(faces)
+        used = np.flatnonzero(np.bincount(faces.ravel(), minlength=len(vertices)))
         remap = np.full(len(vertices), -1, np.int64)
         remap[used] = np.arange(len(used))
         vertices, faces = vertices[used], remap[faces]
@@ -460,6 +479,7 @@ def _build(
         faces[flip] = faces[flip][:, ::-1]
         cross[flip] = -cross[flip]
         normals = cross / np.linalg.norm(cross, axis=1, keepdims=True)
+        edges_used = (*edges_used[:2], _rewound(edges_used[2], flip))
     target = TargetSurface(
         vertices=vertices,
         faces=faces,
@@ -472,6 +492,8 @@ def _build(
         source_units=unit,
         source=name,
     )
+    if not closed:  # the same faces: hand over the edge table instead of sorting it again
+        target.__dict__["edge_use"] = edges_used
     if target.area_mm2 <= 0.0:
         raise MeshError(f"{label} has zero total area")
     return target, findings
