@@ -266,3 +266,18 @@ def test_repeated_faces_any_winding_are_dropped() -> None:
 
     f = np.array([[0, 1, 2], [2, 1, 0], [1, 2, 3], [3, 1, 2], [0, 2, 3]])
     assert _repeated_faces(f, 4).tolist() == [False, True, False, True, False]
+
+
+def test_edge_use_is_numpys_unique_of_the_edge_keys() -> None:
+    # the edge table spelt out with one argsort equals np.unique's (numpy is the reference)
+    from wirecut.geometry.mesh import edge_use
+
+    v, f = saddle(n=15)
+    n = len(v)
+    a, b = f.astype(np.int64), np.roll(f, -1, axis=1).astype(np.int64)
+    key = (np.minimum(a, b) * n + np.maximum(a, b)).ravel()
+    uniq, inverse, counts = np.unique(key, return_inverse=True, return_counts=True)
+    edges, got_counts, got_inverse = edge_use(f, n)
+    assert np.array_equal(edges[:, 0] * n + edges[:, 1], uniq)
+    assert np.array_equal(got_counts, counts)
+    assert np.array_equal(got_inverse, inverse.ravel())

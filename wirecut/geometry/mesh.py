@@ -192,11 +192,19 @@ def edge_use(faces: np.ndarray, n_vertices: int) -> tuple[np.ndarray, np.ndarray
     inverse : (3m,) int
         Edge index of each directed face edge ``(f0, f1), (f1, f2), (f2, f0)`` in face order.
     """
-    directed = np.stack([faces, np.roll(faces, -1, axis=1)], axis=2).reshape(-1, 2)
-    lo = directed.min(axis=1).astype(np.int64)
-    hi = directed.max(axis=1).astype(np.int64)
-    key = lo * int(n_vertices) + hi
-    uniq, inverse, counts = np.unique(key, return_inverse=True, return_counts=True)
+    a = faces.astype(np.int64, copy=False)
+    b = np.roll(a, -1, axis=1)
+    key = (np.minimum(a, b) * int(n_vertices) + np.maximum(a, b)).ravel()
+    # np.unique(key, return_inverse=True, return_counts=True), spelt out: one plain argsort
+    order = np.argsort(key)
+    sk = key[order]
+    start = np.ones(len(sk), bool)
+    np.not_equal(sk[1:], sk[:-1], out=start[1:])
+    inverse = np.empty(len(key), np.int64)
+    inverse[order] = np.cumsum(start) - 1
+    first = np.flatnonzero(start)
+    uniq = sk[first]
+    counts = np.diff(np.append(first, len(sk)))
     edges = np.column_stack([uniq // n_vertices, uniq % n_vertices])
     return edges, counts, inverse
 
@@ -421,7 +429,7 @@ def _build(
 
     # merge duplicate vertices
     n_in, m_in = len(vertices), len(faces)
-    q = np.round(vertices / (diag * 1e-9)).astype(np.int64)
+    q = np.rint(vertices * (1.0 / (diag * 1e-9))).astype(np.int64)
     first, inv = _unique_rows(q)
     vertices = vertices[first]
     faces = inv[faces]
@@ -429,7 +437,8 @@ def _build(
     tri = vertices[faces]
     cross = np.cross(tri[:, 1] - tri[:, 0], tri[:, 2] - tri[:, 0])
     area2 = np.linalg.norm(cross, axis=1)
-    longest2 = (np.linalg.norm(tri - np.roll(tri, 1, axis=1), axis=2) ** 2).max(axis=1)
+    sides = (tri[:, 1] - tri[:, 0], tri[:, 2] - tri[:, 1], tri[:, 0] - tri[:, 2])
+    longest2 = np.max([np.einsum("ij,ij->i", e, e) for e in sides], axis=0)
     repeated = (
         (faces[:, 0] == faces[:, 1]) | (faces[:, 1] == faces[:, 2]) | (faces[:, 0] == faces[:, 2])
     )
