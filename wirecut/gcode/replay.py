@@ -205,19 +205,34 @@ def replay_cut_surface(
         n_sub = max(1, math.ceil(T / h_max)) if (lagging and T > 0) else 1
         h = T / n_sub
         decay = math.exp(-h / tau) if T > 0 else 1.0
-        for s in range(n_sub):
-            c_mid = a + ((s + 0.5) / n_sub) * delta
-            p_mid = c_mid + d
-            in_foam = (p_mid[:, 0] >= x_lo) & (p_mid[:, 0] <= x_hi) & (p_mid[:, 1] <= y_top)
-            d_ss = np.where(in_foam[:, None], -(lag_per_speed * v)[:, None] * u, 0.0)
-            if T > 0:
-                d = d_ss + (d - d_ss) * decay
-            c_end = a + ((s + 1) / n_sub) * delta
-            trace.append(c_end + d)
-            t_now += h
-            times.append(t_now)
-            seg_kerf.append(k_move)
-            seg_dir.append(wdir)
+
+        def in_foam(p_mid: np.ndarray) -> np.ndarray:
+            return (p_mid[..., 0] >= x_lo) & (p_mid[..., 0] <= x_hi) & (p_mid[..., 1] <= y_top)
+
+        pull = -(lag_per_speed * v)[:, None] * u  # (p, 2) the steady lag while in the foam
+        frac = (np.arange(n_sub) + 0.5) / n_sub
+        c_mid = a[:, None, :] + frac[None, :, None] * delta[:, None, :]  # (p, s, 2)
+        # all substeps at once, assuming each plane stays in (or out of) the foam for the
+        # whole move as it is at the move's start: d_s = d_ss + (d_0 - d_ss) decay^s
+        foam0 = in_foam(c_mid[:, 0] + d)
+        d_ss = np.where(foam0[:, None], pull, 0.0)
+        power = decay ** np.arange(n_sub + 1) if T > 0 else np.ones(n_sub + 1)
+        d_all = d_ss[:, None, :] + (d - d_ss)[:, None, :] * power[None, :, None]  # (p, s+1, 2)
+        if not np.array_equal(in_foam(c_mid + d_all[:, :-1]), np.repeat(foam0[:, None], n_sub, 1)):
+            # a plane enters or leaves the foam during the move: step it substep by substep
+            dd = d.copy()
+            for s in range(n_sub):
+                d_s = np.where(in_foam(c_mid[:, s] + dd)[:, None], pull, 0.0)
+                if T > 0:
+                    dd = d_s + (dd - d_s) * decay
+                d_all[:, s + 1] = dd
+        ends = a[:, None, :] + (np.arange(1, n_sub + 1) / n_sub)[None, :, None] * delta[:, None, :]
+        trace.extend(np.moveaxis(ends + d_all[:, 1:], 1, 0))
+        d = d_all[:, -1].copy()
+        times.extend(t_now + h * np.arange(1, n_sub + 1))
+        t_now += h * n_sub
+        seg_kerf.extend([k_move] * n_sub)
+        seg_dir.extend([wdir] * n_sub)
     wire_pts = np.stack(trace, axis=1)  # (p, n, 2)
     if wire_pts.shape[1] < 2:
         raise JobError("the program's heated run has no move: nothing is cut")
@@ -272,11 +287,15 @@ def _signed_to_sections(lo: np.ndarray, hi: np.ndarray, w: np.ndarray, q: np.nda
     _, i_lo = cKDTree(lo).query(q)
     _, i_hi = cKDTree(hi).query(q)
     guess = np.rint((1.0 - w) * i_lo + w * i_hi).astype(int)
-    span = np.arange(-_SEARCH_SEGMENTS, _SEARCH_SEGMENTS + 1)
-    segs = np.clip(guess[:, None] + span[None, :], 0, n - 2)  # (c, 2m + 1)
+    # the window of 2m + 1 segments around the guess, shifted (not clipped) at the ends;
+    # its 2m + 2 vertices are interpolated once and shared by neighbouring segments
+    m = _SEARCH_SEGMENTS
+    first = np.clip(guess - m, 0, max(n - 2 - 2 * m, 0))
+    verts = np.minimum(first[:, None] + np.arange(2 * m + 2)[None, :], n - 1)  # (c, 2m + 2)
+    segs = np.minimum(verts[:, :-1], n - 2)  # (c, 2m + 1)
     ww = w[:, None, None]
-    a = (1 - ww) * lo[segs] + ww * hi[segs]
-    b = (1 - ww) * lo[segs + 1] + ww * hi[segs + 1]
+    pts = (1 - ww) * lo[verts] + ww * hi[verts]
+    a, b = pts[:, :-1], pts[:, 1:]
     ab = b - a
     l2 = np.sum(ab * ab, axis=2)
     qq = q[:, None, :]
