@@ -207,3 +207,48 @@ def test_thinned_samples_keep_area_and_outline() -> None:
     assert (t.weights == 0).sum() == 50
     cells = {tuple(c) for c in np.floor((t.plan_xy[t.weights > 0] - xy[w > 0].min(0)) / 10.0)}
     assert len(cells) == (t.weights > 0).sum() <= 100
+
+
+@pytest.mark.parametrize("radius", [400.0, 1500.0])
+def test_detail_spacing_of_a_sphere_is_the_sagitta_chord(radius):
+    # a sphere of radius R bends by 1/R in every direction: the chord whose sagitta is s is
+    # sqrt(8 s R) (sagitta s = c^2 / 8R for c << R, standard circle geometry)
+    from wirecut.ruled.sampling import DETAIL_SAG_MM, _prepared
+
+    # on a grid's right triangles the normals of two faces differ as at points farther apart
+    # than their centroids (a flat triangle's normal is the surface's at the middle of its
+    # long side, for a quadratic), so the estimate errs short: never longer than the chord
+    target = _sphere_target(radius=radius, half=100.0, n=61)
+    want = np.sqrt(8.0 * DETAIL_SAG_MM * radius)
+    assert 0.7 * want <= _prepared(target).detail_spacing() <= 1.02 * want
+
+
+def test_a_fine_mesh_is_judged_at_its_curvature_spacing_a_coarse_one_as_before():
+    from wirecut.ruled.sampling import JUDGING_DENSITY, _prepared, judging_samples, judging_spacing
+
+    region = shapely.box(-90.0, -90.0, 90.0, 90.0)
+    # coarse: 10 mm edges, above the detail spacing of R = 1500 mm (5.5 mm): the default rule
+    coarse = _sphere_target(radius=1500.0, half=100.0, n=21)
+    assert judging_spacing(coarse) == pytest.approx(
+        np.clip(_prepared(coarse).median_edge, 1, 20) / np.sqrt(JUDGING_DENSITY)
+    )
+    s = judging_samples(coarse, _setup(), region)
+    ref = sample_target(coarse, _setup(), region, density=JUDGING_DENSITY).merged()
+    assert len(s) == len(ref)
+    # fine: 1 mm edges, far below it; judged on far fewer points than the mesh has vertices,
+    # with the area kept and no gap wider than a few judging spacings
+    fine = _sphere_target(radius=1500.0, half=100.0, n=201)
+    h = judging_spacing(fine)
+    assert h == pytest.approx(_prepared(fine).detail_spacing() / 2.0)
+    assert h > 2.0 * _prepared(fine).median_edge
+    s = judging_samples(fine, _setup(), region)
+    inside = s.weights > 0
+    assert inside.sum() < 0.25 * (180 / 1.0) ** 2
+    lattice = sample_target(fine, _setup(), region, spacing_mm=h).merged()
+    assert s.area_mm2 == pytest.approx(lattice.area_mm2, rel=1e-12)
+    from scipy.spatial import cKDTree
+
+    g = np.linspace(-85, 85, 60)
+    probe = np.column_stack([np.repeat(g, 60), np.tile(g, 60)])
+    d, _ = cKDTree(s.plan_xy[inside]).query(probe)
+    assert d.max() <= h

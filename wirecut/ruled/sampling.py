@@ -42,6 +42,8 @@ __all__ = [
     "prepare_sampling",
     "judging_samples",
     "JUDGING_DENSITY",
+    "DETAIL_SAG_MM",
+    "judging_spacing",
     "default_spacing",
     "spacing_for",
     "MAX_DIVISIONS",
@@ -55,6 +57,10 @@ MAX_DIVISIONS = 256
 #: between them, mostly at the piece's edges, the error runs higher (measured on the demo's dome
 #: at the default density: up to 17 % against a brute force 4x denser).
 JUDGING_DENSITY = 4.0
+
+#: The chord sag (mm) below which a fine mesh's surface counts as straight between samples
+#: (1 % of a 0.5 mm tolerance): sets :meth:`_Prepared.detail_spacing`.
+DETAIL_SAG_MM = 0.005
 
 
 @dataclass(frozen=True)
@@ -229,6 +235,34 @@ class _Prepared:
             c[:, 0] - a[:, 0]
         )
         self._tree: tuple[shapely.STRtree, np.ndarray] | None = None
+        self.faces = faces
+        self._edge_use = getattr(target, "edge_use", None)
+        self._detail: float | None = None
+
+    def detail_spacing(self) -> float:
+        """The spacing (mm) at which the surface's chord sag reaches :data:`DETAIL_SAG_MM`:
+        ``sqrt(8 sag / kappa)`` (sagitta of a chord), kappa the 99th percentile over the
+        interior edges of the angle between the two faces' normals over the distance of their
+        centroids (the discrete normal curvature across the edge; 1/R on a sphere of radius
+        R). Infinite for a flat target. Computed on first use."""
+        if self._detail is None:
+            from wirecut.geometry.mesh import edge_use
+
+            faces = self.faces
+            n_vertices = int(faces.max()) + 1
+            _, counts, inverse = (
+                self._edge_use if self._edge_use is not None else edge_use(faces, n_vertices)
+            )
+            inner = np.flatnonzero(counts[inverse] == 2)
+            inner = inner[np.argsort(inverse[inner], kind="stable")]
+            fa, fb = inner[0::2] // 3, inner[1::2] // 3
+            cos = np.clip(np.einsum("ij,ij->i", self.normals[fa], self.normals[fb]), -1.0, 1.0)
+            centre = self.tri.mean(axis=1)
+            gap = np.linalg.norm(centre[fa] - centre[fb], axis=1)
+            kappa = np.arccos(cos) / np.maximum(gap, 1e-12)
+            k99 = float(np.percentile(kappa, 99)) if len(kappa) else 0.0
+            self._detail = math.sqrt(8.0 * DETAIL_SAG_MM / k99) if k99 > 0 else math.inf
+        return self._detail
 
     def plan_tree(self) -> tuple[shapely.STRtree, np.ndarray]:
         """Search tree of the plan triangles that are not edge-on, and their face indices
@@ -358,6 +392,22 @@ def sample_target(
     pts_parts, w_parts, f_parts = [], [], []
     for n in np.unique(divisions):
         sel = np.flatnonzero(divisions == n)
+        if n == 1:
+            # a face finer than the spacing keeps its corners, which its neighbours share:
+            # each vertex once (at its first corner, in the lattice's corner order a, c, b)
+            # carrying a third of each face's area, as merged() would leave the copies
+            ids = prep.faces[near[sel]][:, [0, 2, 1]].ravel()
+            _, first, inverse = np.unique(ids, return_index=True, return_inverse=True)
+            order = np.argsort(first, kind="stable")
+            rank = np.empty_like(order)
+            rank[order] = np.arange(len(order))
+            corner = first[order]
+            pts_parts.append(tri[sel][:, [0, 2, 1]].reshape(-1, 3)[corner])
+            w_parts.append(
+                np.bincount(rank[inverse.ravel()], weights=np.repeat(area[sel] / 3.0, 3))
+            )
+            f_parts.append(sel[corner // 3])
+            continue
         bary, share = _lattice(int(n))
         a = tri[sel, 0][:, None, :]
         ab = (tri[sel, 1] - tri[sel, 0])[:, None, :]
@@ -399,10 +449,32 @@ def sample_target(
     )
 
 
+def judging_spacing(target: Any) -> float:
+    """The lattice spacing (mm) of :func:`judging_samples`: the default rule's
+    ``clip(edge, 1, 20)`` with the median edge raised to the target's detail spacing
+    (:meth:`_Prepared.detail_spacing`) where the mesh is finer than its curvature needs,
+    over ``sqrt(JUDGING_DENSITY)``. A coarse mesh keeps the default rule; a fine mesh of a
+    smooth surface is no longer judged on ever more points (the sampling of a 1M-triangle
+    panel no longer grows with its triangles)."""
+    prep = _prepared(target)
+    edge = max(prep.median_edge, prep.detail_spacing())
+    return float(np.clip(edge, 1.0, 20.0)) / math.sqrt(JUDGING_DENSITY)
+
+
 def judging_samples(
     target: Any, part_to_machine: np.ndarray, region: shapely.Geometry | np.ndarray
 ) -> TargetSamples:
     """The samples a piece is finally fitted on and its program judged on, by ``plan`` and
-    ``simulate`` alike: :data:`JUDGING_DENSITY` times the default sampling, with the copies of
-    a point that faces share merged (:meth:`TargetSamples.merged`)."""
-    return sample_target(target, part_to_machine, region, density=JUDGING_DENSITY).merged()
+    ``simulate`` alike: the lattice at :func:`judging_spacing`, with the copies of a point
+    that faces share merged (:meth:`TargetSamples.merged`). Where the mesh's edges are
+    shorter than that spacing, each face is sampled at ``sqrt(2)`` times it (so that a fine
+    face keeps just its corners and the lattice is the mesh's vertices) and the result
+    thinned to one sample per plan cell of ``spacing / sqrt(2)`` (areas kept, outline
+    samples kept): neighbouring samples stay within about ``sqrt(2)`` spacings, where the
+    surface's chord sag is half :data:`DETAIL_SAG_MM`."""
+    prep = _prepared(target)
+    h = judging_spacing(target)
+    if prep.median_edge >= h:
+        return sample_target(target, part_to_machine, region, spacing_mm=h).merged()
+    lattice = sample_target(target, part_to_machine, region, spacing_mm=math.sqrt(2.0) * h)
+    return replace(lattice.merged().thinned(h / math.sqrt(2.0)), spacing_mm=h)
