@@ -17,8 +17,6 @@ import sys
 import time
 from pathlib import Path
 
-import numpy as np
-
 sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "tests" / "ruled"))
 
 from test_minimax import _problem, _whole_lp  # noqa: E402  (the test's problem builder)
@@ -43,7 +41,10 @@ def main() -> None:
             t_lp += time.perf_counter() - t0
             worst = max(worst, abs(eps - whole.x[-1]))
         rows.append((n, k, 1e3 * t_rg / reps, 1e3 * t_lp / reps, t_lp / t_rg, worst))
-    print("| samples | rulings | row generation ms | whole LP (linprog) ms | ratio | max |E diff| mm |")
+    print(
+        "| samples | rulings | row generation ms | whole LP (linprog) ms | ratio "
+        "| max |E diff| mm |"
+    )
     print("|---|---|---|---|---|---|")
     for n, k, a, b, r, d in rows:
         print(f"| {n:,} | {k} | {a:.1f} | {b:.1f} | {r:.1f} | {d:.1e} |")
