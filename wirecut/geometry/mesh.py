@@ -144,10 +144,7 @@ class TargetSurface:
     @cached_property
     def boundary_vertices(self) -> np.ndarray:
         """(n,) bool: vertices on an edge used by one face (or by more than two)."""
-        edges, counts, _ = self.edge_use
-        mask = np.zeros(len(self.vertices), bool)
-        mask[edges[counts != 2].ravel()] = True
-        return mask
+        return boundary_vertex_mask(self.faces, len(self.vertices), self.edge_use)
 
     @cached_property
     def mean_edge_mm(self) -> float:
@@ -209,9 +206,12 @@ def edge_use(faces: np.ndarray, n_vertices: int) -> tuple[np.ndarray, np.ndarray
     return edges, counts, inverse
 
 
-def boundary_vertex_mask(faces: np.ndarray, n_vertices: int) -> np.ndarray:
-    """(n,) bool: vertices on an edge used by exactly one face (or by more than two)."""
-    edges, counts, _ = edge_use(faces, n_vertices)
+def boundary_vertex_mask(
+    faces: np.ndarray, n_vertices: int, edges_used: tuple | None = None
+) -> np.ndarray:
+    """(n,) bool: vertices on an edge used by exactly one face (or by more than two).
+    ``edges_used`` is the faces' :func:`edge_use` when it is already known."""
+    edges, counts, _ = edges_used if edges_used is not None else edge_use(faces, n_vertices)
     mask = np.zeros(n_vertices, bool)
     mask[edges[counts != 2].ravel()] = True
     return mask
