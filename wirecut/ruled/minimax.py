@@ -120,13 +120,13 @@ def equal_error(
 
     inf = highspy.kHighsInf
     n, nv = a.shape
-    strips = cell // T_SLABS
-    ns = int(strips.max()) + 1 if n else 1
-    used = np.asarray(abs(a).sum(axis=0)).ravel() > 0
-    r0 = ny * (a @ y0 - yt)
-    spread = float(np.abs(r0).max()) if n else 0.0
     if n == 0:
         return y0, 0.0, 0
+    strips = cell // T_SLABS
+    ns = int(strips.max()) + 1
+    used = np.asarray(abs(a).sum(axis=0)).ravel() > 0
+    r0 = ny * (a @ y0 - yt)
+    spread = float(np.abs(r0).max())
     box = 4.0 * spread + 2.0 * tol + 1.0
     h = _solver()
     ncol = nv + ns + 1
