@@ -9,7 +9,7 @@ import pytest
 
 from wirecut import workers
 from wirecut.errors import JobError
-from wirecut.workers import forked, pmap, worker_count
+from wirecut.workers import background, forked, pmap, worker_count
 
 
 def test_pmap_equals_the_loop_and_sees_closures(monkeypatch) -> None:
@@ -60,3 +60,40 @@ def test_worker_count_from_the_environment(monkeypatch) -> None:
     monkeypatch.setenv("WIRECUT_WORKERS", "0")
     with pytest.raises(JobError, match="at least 1"):
         worker_count()
+
+
+_FORK = "fork" in __import__("multiprocessing").get_all_start_methods()
+
+
+def test_background_returns_what_the_call_returns_while_the_caller_goes_on(monkeypatch) -> None:
+    monkeypatch.setenv("WIRECUT_WORKERS", "2")
+    big = np.arange(50_000.0)
+    job = background(lambda: (float(big.sum()), os.getpid()))
+    here = float(big[::2].sum())  # the caller's own work meanwhile
+    total, pid = job.result()
+    assert (total, here) == (float(big.sum()), float(big[::2].sum()))
+    assert job.result()[0] == total  # asked twice: the same answer, no second run
+    if _FORK:
+        assert pid != os.getpid()
+
+
+def test_background_error_is_raised_when_the_result_is_asked_for(monkeypatch) -> None:
+    monkeypatch.setenv("WIRECUT_WORKERS", "2")
+
+    def fail() -> None:
+        raise JobError("the rays cannot be cast")
+
+    job = background(fail)
+    with pytest.raises(JobError, match="the rays cannot be cast"):
+        job.result()
+
+
+def test_background_runs_here_when_small_serial_or_nested(monkeypatch) -> None:
+    monkeypatch.setenv("WIRECUT_WORKERS", "2")
+    assert background(os.getpid, min_size=10, size=3).result() == os.getpid()
+    monkeypatch.setenv("WIRECUT_WORKERS", "1")
+    assert background(os.getpid).result() == os.getpid()
+    monkeypatch.setenv("WIRECUT_WORKERS", "2")
+    # inside a pmap worker a background job runs in that worker
+    out = pmap(lambda k: background(os.getpid).result() == os.getpid(), range(2))
+    assert out == [True, True]

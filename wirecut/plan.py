@@ -473,17 +473,20 @@ def write_plan(plan: Plan, out_dir: Path, progress: Progress | None = None) -> d
         progress("writing", i, n)
         if pp.gcode is not None:
             (out_dir / "gcode" / f"{pp.piece.id}.ngc").write_text(pp.gcode, encoding="ascii")
-    write_dxf([pp.piece for pp in plan.pieces], plan.allocation, out_dir / "pieces.dxf")
-    mesh = rational_mesh([(pp.piece.fit, pp.piece.part_to_machine) for pp in plan.pieces])
-    write_rational_mesh(mesh, out_dir / "rationalized.ply")
     data = plan_json(plan)
-    (out_dir / "plan.json").write_text(
-        json.dumps(data, indent=2, sort_keys=True) + "\n", encoding="utf-8"
-    )
+
+    def files() -> None:  # written while the report's pictures are drawn
+        write_dxf([pp.piece for pp in plan.pieces], plan.allocation, out_dir / "pieces.dxf")
+        mesh = rational_mesh([(pp.piece.fit, pp.piece.part_to_machine) for pp in plan.pieces])
+        write_rational_mesh(mesh, out_dir / "rationalized.ply")
+        (out_dir / "plan.json").write_text(
+            json.dumps(data, indent=2, sort_keys=True) + "\n", encoding="utf-8"
+        )
+
     from wirecut.export.report import write_report
     from wirecut.export.report_data import report_data
 
-    write_report(report_data(plan, data), out_dir)
+    write_report(report_data(plan, data), out_dir, meanwhile=files)
     # deviation.png is the report's plan view (the same picture: wirecut.export.rational)
     try:
         shutil.copyfile(out_dir / "report_files" / "plan_view.png", out_dir / "deviation.png")

@@ -7,6 +7,8 @@ as they are (nothing is pickled on the way in), and only each item's result come
 results are those of the serial loop, in order; a worker's exception is raised in the parent
 as it was raised in the child. :func:`forked` keeps such workers for a whole stage whose
 questions come one round at a time (the split's width search asks two strips per round).
+:func:`background` starts one such job and lets the caller go on with other work until it
+asks for the result (the analysis casts its undercut rays while the curvature is fitted).
 
 ``WIRECUT_WORKERS`` sets the number of processes (default: the CPUs this process may use, at
 most 8); 1, a platform without ``fork``, or a call from inside a worker runs the plain loop.
@@ -23,7 +25,7 @@ from typing import Any, TypeVar
 
 from wirecut.errors import JobError
 
-__all__ = ["pmap", "forked", "worker_count"]
+__all__ = ["pmap", "forked", "background", "worker_count"]
 
 T = TypeVar("T")
 R = TypeVar("R")
@@ -135,3 +137,63 @@ def pmap(
             return out
     finally:
         _TASK = None
+
+
+class _Later:
+    """The result of :func:`background`: ``result()`` waits for it (or computes it, serial)."""
+
+    def __init__(self, fn: Callable[[], Any], proc: Any = None, recv: Any = None) -> None:
+        self._fn, self._proc, self._recv = fn, proc, recv
+        self._done = False
+        self._value: Any = None
+
+    def result(self) -> Any:
+        if not self._done:
+            if self._proc is None:
+                self._value = self._fn()
+            else:
+                try:
+                    ok, value = self._recv.recv()
+                except EOFError:  # the child died without a word (killed, out of memory)
+                    self._proc.join()
+                    raise JobError(
+                        f"a worker process ended without a result (exit {self._proc.exitcode})"
+                    ) from None
+                finally:
+                    self._recv.close()
+                self._proc.join()
+                if not ok:
+                    raise value
+                self._value = value
+            self._done = True
+        return self._value
+
+
+def background(fn: Callable[[], R], min_size: int = 0, size: int = 0) -> _Later:
+    """Start ``fn()`` in a forked worker process; ``.result()`` returns (or raises) what it did.
+
+    The parent goes on meanwhile. Serial (``fn`` runs when the result is asked for) where
+    :func:`pmap` would be, and when ``size < min_size`` (small jobs do not repay a fork).
+    ``fn`` must not change anything the parent needs: the child's memory is its own.
+    """
+    if _serial() or size < min_size:
+        return _Later(fn)
+    ctx = multiprocessing.get_context("fork")
+    recv, send = ctx.Pipe(duplex=False)
+
+    def run() -> None:
+        _mark_worker()
+        try:
+            out: tuple[bool, Any] = (True, fn())
+        except BaseException as exc:  # noqa: BLE001 - handed to the parent as it was raised
+            out = (False, exc)
+        try:
+            send.send(out)
+        except Exception:  # a result or an exception that cannot be pickled: say what it was
+            send.send((False, JobError(f"a worker's result could not be sent: {out[1]!r}"[:400])))
+        send.close()
+
+    proc = ctx.Process(target=run, daemon=True)
+    proc.start()
+    send.close()
+    return _Later(fn, proc, recv)

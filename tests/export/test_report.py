@@ -341,3 +341,38 @@ def test_colour_caption_says_what_the_palette_does(tmp_path):
     assert f"±{tol:.3f} mm" in text
     plus, minus = deviation_colors(np.array([tol, -tol]), tol)
     assert plus[0] > plus[2] and minus[2] > minus[0]  # + red, - blue
+
+
+def test_pictures_are_the_same_drawn_here_or_in_workers(tmp_path, monkeypatch):
+    out = {}
+    for workers in ("1", "3"):
+        monkeypatch.setenv("WIRECUT_WORKERS", workers)
+        d = tmp_path / workers
+        d.mkdir()
+        _write(d)
+        out[workers] = {p.name: p.read_bytes() for p in (d / "report_files").glob("*.png")}
+    assert out["1"] == out["3"] and len(out["1"]) == 3
+
+
+def test_files_written_meanwhile_are_linked(tmp_path):
+    from dataclasses import replace
+
+    data = _data()
+    sheets = (data.pieces[0], _sheet("P02", 800.0, 1600.0, "gcode/P02.ngc"))
+
+    def program() -> None:  # written while the pictures are drawn, before the page
+        (tmp_path / "gcode").mkdir(exist_ok=True)
+        (tmp_path / "gcode" / "P02.ngc").write_text("%\n%\n", encoding="ascii")
+
+    path = write_report(replace(data, pieces=sheets), tmp_path, meanwhile=program)
+    assert "gcode/P02.ngc" in _parse(path).links
+
+
+@pytest.mark.parametrize("n", [0, 1, 2, 5, 42])
+@pytest.mark.parametrize("processes", [1, 2, 3, 8])
+def test_picture_runs_draw_every_piece_once(n, processes):
+    from wirecut.export.report import _picture_runs
+
+    runs = _picture_runs(n, processes)
+    assert 1 <= len(runs) <= processes
+    assert sorted(j for r in runs for j in r) == list(range(n))

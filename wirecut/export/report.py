@@ -27,7 +27,7 @@ import numpy as np
 
 from wirecut.errors import OutputError
 from wirecut.export.palette import DeviationPicture, deviation_colors
-from wirecut.workers import pmap, worker_count
+from wirecut.workers import background, worker_count
 
 __all__ = ["PieceSheet", "ReportData", "SAFETY_CAUTIONS", "write_report"]
 
@@ -158,6 +158,29 @@ def _hms(seconds) -> str:
 
 
 # --------------------------------------------------------------------------- pictures
+
+
+_PLAN_VIEW_SHEETS = 12  # the plan view costs about as much as this many piece pictures
+_MEANWHILE_SHEETS = 6  # what the caller does meanwhile, in piece pictures
+
+
+def _picture_runs(n: int, processes: int) -> list[list[int]]:
+    """Piece indices for each of ``processes`` runs (the first is the caller's, the last also
+    draws the plan view), balanced by cost; never more runs than there is work for."""
+    k = max(1, min(processes, n + 1))
+    if k == 1:
+        return [list(range(n))]
+    # cost units: run 0 has the caller's other work, run k-1 the plan view
+    extra = np.zeros(k)
+    extra[0] += _MEANWHILE_SHEETS
+    extra[-1] += _PLAN_VIEW_SHEETS
+    level = (n + extra.sum()) / k
+    counts = np.maximum(np.floor(level - extra), 0).astype(int)
+    while counts.sum() > n:  # too few pieces to level: take from the busiest run
+        counts[np.argmax(np.where(counts > 0, counts + extra, -np.inf))] -= 1
+    counts[np.argmin(extra)] += n - int(counts.sum())  # what rounding left, to the cheapest
+    edges = np.r_[0, np.cumsum(counts)]
+    return [list(range(int(a), int(b))) for a, b in zip(edges[:-1], edges[1:], strict=True)]
 
 
 def _save(picture, path: Path) -> None:
@@ -500,11 +523,21 @@ def _page(data: ReportData, out_dir: Path, plan_img: str, piece_imgs: dict[str, 
     )
 
 
-def write_report(data: ReportData, out_dir: Path) -> Path:
+def write_report(
+    data: ReportData, out_dir: Path, meanwhile: Callable[[], None] | None = None
+) -> Path:
     """Write ``out_dir/report.html`` and its pictures in ``out_dir/report_files/``.
 
     Links to G-code and DXF files are written only for files that exist in ``out_dir`` when the
-    report is written (write the programs first); a missing one shows as "not written".
+    report's page is written (after ``meanwhile``); a missing one shows as "not written".
+
+    Parameters
+    ----------
+    data : ReportData
+    out_dir : Path
+    meanwhile : callable, optional
+        Called here while worker processes draw the pictures (the planner writes its DXF and
+        meshes then); the page is written after it returns.
 
     Returns
     -------
@@ -522,10 +555,13 @@ def write_report(data: ReportData, out_dir: Path) -> Path:
         files.mkdir(parents=True, exist_ok=True)
     except OSError as exc:
         raise OutputError(f"cannot create {files}: {exc}") from None
-    _plan_view_png(data, files / "plan_view.png")
     piece_imgs = {sheet.id: f"report_files/deviation_{sheet.id}.png" for sheet in data.pieces}
 
-    def draw(sheets) -> None:
+    def draw(sheets, plan_view: bool) -> None:
+        if plan_view:
+            _plan_view_png(data, files / "plan_view.png")
+        if not sheets:
+            return
         picture = DeviationPicture(
             data.tolerance_mm, (5.0, 3.6), (0.16, 0.9, 0.15, 0.9), "deviation (mm)", cells=200
         )
@@ -534,9 +570,18 @@ def write_report(data: ReportData, out_dir: Path) -> Path:
                          [""], f"{sheet.id}: deviation")  # fmt: skip
             _save(picture, out_dir / piece_imgs[sheet.id])
 
-    # one picture (figure) per worker, each drawing a run of the pieces
-    runs = max(1, min(worker_count(), len(data.pieces)))
-    pmap(draw, [data.pieces[i::runs] for i in range(runs)])
+    # the pictures in runs, one per process: this one (which also has ``meanwhile`` to do)
+    # and the workers; the plan view, worth about _PLAN_VIEW_SHEETS piece pictures, in the last
+    runs = _picture_runs(len(data.pieces), worker_count())
+    later = [
+        background(lambda r=r, last=i == len(runs) - 1: draw([data.pieces[j] for j in r], last))
+        for i, r in enumerate(runs[1:], start=1)
+    ]
+    if meanwhile is not None:
+        meanwhile()
+    draw([data.pieces[j] for j in runs[0]], len(runs) == 1)
+    for job in later:
+        job.result()
     text = _page(data, out_dir, "report_files/plan_view.png", piece_imgs)
     path = out_dir / "report.html"
     try:

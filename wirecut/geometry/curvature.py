@@ -104,38 +104,46 @@ class Curvature:
         return (self.k1 * c * c + self.k2 * s * s) / r2
 
 
-def _corner_angles(tri: np.ndarray) -> np.ndarray:
-    """(m, 3) radians: the interior angle at each corner of triangles (m, 3, 3)."""
+def _corner_angles(tri: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Interior angle (m, 3) radians at each corner of triangles (m, 3, 3), and their areas (m,).
+
+    Any two edges of a triangle span twice its area, so one cross product gives the sine part
+    of all three angles: ``angle = atan2(2 A, -e_in . e_out)``."""
     a = tri[:, 1] - tri[:, 0]
     b = tri[:, 2] - tri[:, 1]
     c = tri[:, 0] - tri[:, 2]
+    cx = a[:, 1] * c[:, 2] - a[:, 2] * c[:, 1]
+    cy = a[:, 2] * c[:, 0] - a[:, 0] * c[:, 2]
+    cz = a[:, 0] * c[:, 1] - a[:, 1] * c[:, 0]
+    twice = np.sqrt(cx * cx + cy * cy + cz * cz)
 
-    def ang(u: np.ndarray, v: np.ndarray) -> np.ndarray:
-        return np.arctan2(np.linalg.norm(np.cross(u, v), axis=1), np.einsum("ij,ij->i", u, v))
+    def dot(u: np.ndarray, v: np.ndarray) -> np.ndarray:
+        return u[:, 0] * v[:, 0] + u[:, 1] * v[:, 1] + u[:, 2] * v[:, 2]
 
-    return np.column_stack([ang(a, -c), ang(b, -a), ang(c, -b)])
+    ang = np.arctan2(twice[:, None], -np.column_stack([dot(a, c), dot(b, a), dot(c, b)]))
+    return ang, 0.5 * twice
 
 
-def angle_defects(vertices: np.ndarray, faces: np.ndarray) -> np.ndarray:
+def angle_defects(vertices: np.ndarray, faces: np.ndarray, angles=None) -> np.ndarray:
     """(n,) radians: ``2 pi`` minus the sum of corner angles at each vertex.
 
     On a closed genus-0 mesh these add up to ``4 pi`` (Descartes' theorem on total angular defect;
-    discrete Gauss-Bonnet).
+    discrete Gauss-Bonnet). ``angles`` is :func:`_corner_angles` of the faces when known.
     """
-    ang = _corner_angles(vertices[faces])
+    ang = (angles if angles is not None else _corner_angles(vertices[faces]))[0]
     total = np.bincount(faces.ravel(), weights=ang.ravel(), minlength=len(vertices))
     return 2.0 * np.pi - total
 
 
-def mixed_areas(vertices: np.ndarray, faces: np.ndarray) -> np.ndarray:
+def mixed_areas(vertices: np.ndarray, faces: np.ndarray, angles=None) -> np.ndarray:
     """(n,) mm^2: mixed Voronoi area of each vertex (Meyer et al. 2003, fig. 4).
 
     Non-obtuse triangle: the Voronoi part ``(|PR|^2 cot Q + |PQ|^2 cot R) / 8`` at corner P;
     obtuse triangle: half its area to the obtuse corner, a quarter to each other corner.
+    ``angles`` is :func:`_corner_angles` of the faces when known.
     """
     tri = vertices[faces]
-    ang = _corner_angles(tri)
-    area = 0.5 * np.linalg.norm(np.cross(tri[:, 1] - tri[:, 0], tri[:, 2] - tri[:, 0]), axis=1)
+    ang, area = angles if angles is not None else _corner_angles(tri)
     # squared length of the edge opposite each corner
     opp2 = np.column_stack(
         [
@@ -244,7 +252,7 @@ def _fit_chunk(vertices, normals, t1, t2, indptr, indices, start: int, stop: int
 
 
 def _fit_quadrics(
-    vertices: np.ndarray, normals: np.ndarray, ring: sparse.csr_matrix
+    vertices: np.ndarray, normals: np.ndarray, ring: sparse.csr_matrix, meanwhile=None
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Least-squares fit coefficients (n, 9) in frames (t1, t2, normal), and t1, t2.
 
@@ -252,9 +260,10 @@ def _fit_quadrics(
     (as in the cubic-order fit of Goldfeather and Interrante 2004, "A novel cubic-order algorithm
     for approximating principal direction vectors") keep the quadratic ones unbiased where the
     neighbourhood is lopsided, near a boundary. Vertices with fewer than 12 neighbours use the
-    first five terms only.
+    first five terms only. ``meanwhile`` (a callable), if given, is called while worker
+    processes fit (before this process fits its own share).
     """
-    from wirecut.workers import pmap, worker_count
+    from wirecut.workers import background, worker_count
 
     n = len(vertices)
     t1, t2 = tangent_frames(normals)
@@ -269,11 +278,17 @@ def _fit_quadrics(
             )
         return out
 
-    # independent per vertex: large meshes are fitted in worker processes, a run each
-    runs = worker_count() if n >= 20 * _CHUNK else 1
-    edges = np.linspace(0, n, runs + 1).astype(int)
-    spans = [(int(a), int(b)) for a, b in zip(edges[:-1], edges[1:], strict=True) if b > a]
-    coef = np.concatenate(pmap(fit_range, spans)) if spans else np.zeros((0, _NP))
+    # independent per vertex: a large mesh is fitted in runs, all but the first in worker
+    # processes; the first (smaller, as this process has ``meanwhile`` to do too) here
+    runs = worker_count() if n >= 2 * _CHUNK else 1
+    share = np.r_[0.0, 0.7, np.full(runs - 1, 1.0)] if runs > 1 else np.r_[0.0, 1.0]
+    edges = np.rint(n * np.cumsum(share) / share.sum()).astype(int)
+    spans = [(int(a), int(b)) for a, b in zip(edges[:-1], edges[1:], strict=True)]
+    later = [background(lambda s=s: fit_range(s)) for s in spans[1:]]
+    if meanwhile is not None:
+        meanwhile()
+    parts = [fit_range(spans[0])] + [job.result() for job in later]
+    coef = np.concatenate(parts) if n else np.zeros((0, _NP))
     return coef, t1, t2
 
 
@@ -292,16 +307,21 @@ def vertex_curvature(target: TargetSurface) -> Curvature:
     """
     v, f = target.vertices, target.faces
     n = len(v)
-    boundary = target.boundary_vertices
-    area = mixed_areas(v, f)
-    defect = angle_defects(v, f)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        gauss = np.where(~boundary & (area > 0), defect / area, np.nan)
-    interior = np.isfinite(gauss)
-
     normals = target.vertex_normals
     ring = _two_ring(f, n)
-    coef, t1, t2 = _fit_quadrics(v, normals, ring)
+    angle: dict[str, np.ndarray] = {}
+
+    def angles() -> None:  # the defect curvature, while the quadrics are fitted
+        boundary = target.boundary_vertices
+        corners = _corner_angles(v[f])
+        angle["area"] = area = mixed_areas(v, f, corners)
+        angle["defect"] = defect = angle_defects(v, f, corners)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            angle["gauss"] = np.where(~boundary & (area > 0), defect / area, np.nan)
+
+    coef, t1, t2 = _fit_quadrics(v, normals, ring, meanwhile=angles)
+    area, defect, gauss = angle["area"], angle["defect"], angle["gauss"]
+    interior = np.isfinite(gauss)
     patch = ring.copy()
     patch.data[:] = 1.0
     patch = patch + sparse.identity(n, format="csr")

@@ -63,6 +63,7 @@ from wirecut.geometry.curvature import Curvature, vertex_curvature
 from wirecut.geometry.frames import plan_basis, to_plan
 from wirecut.geometry.mesh import TargetSurface
 from wirecut.geometry.occlusion import occluded_vertices
+from wirecut.workers import background
 
 __all__ = [
     "SurfaceAnalysis",
@@ -81,6 +82,7 @@ MAX_MARCHED = 2000
 _STEPS = 128  # samples per side of a marched line at most
 _BATCH = 128  # marched lines per vectorized batch
 _VERTICAL = 1e-9  # |n . w| below this is a vertical wall, not an undercut
+_BACKGROUND_FACES = 50_000  # from this many faces the undercut rays run beside the curvature
 _BLOCK = 16  # samples per line marched before checking which lines go on
 
 
@@ -237,6 +239,11 @@ def analyse_surface(target: TargetSurface, job: JobProfile) -> SurfaceAnalysis:
     SurfaceAnalysis
         See the module docstring for every rule.
     """
+    # the undercut rays do not need the curvature: a large mesh casts them in a worker
+    # process while the curvature is fitted here
+    occluded = background(
+        lambda: occluded_vertices(target), min_size=_BACKGROUND_FACES, size=len(target.faces)
+    )
     cu = vertex_curvature(target)
     tol, policy = job.tolerance.surface_mm, job.tolerance.policy
     s = allowed_sagitta(tol, policy)
@@ -319,7 +326,7 @@ def analyse_surface(target: TargetSurface, job: JobProfile) -> SurfaceAnalysis:
         direction[edge_v] = direction[src]
 
     w = target.waste_normal
-    undercut = (target.vertex_normals @ w < -_VERTICAL) | occluded_vertices(target)
+    undercut = (target.vertex_normals @ w < -_VERTICAL) | occluded.result()
     return SurfaceAnalysis(
         curvature=cu,
         kind=kind,
