@@ -19,6 +19,7 @@ from __future__ import annotations
 import html
 import json
 import math
+from collections.abc import Callable
 from dataclasses import dataclass
 from importlib import resources
 from pathlib import Path
