@@ -200,7 +200,8 @@ def make_plan(
     n = len(split.pieces)
     progress("programs", 0, n)
     plans: list[PiecePlan] = []
-    for pp, tf in pmap(programmed, split.pieces, done=lambda i: progress("programs", i, n)):
+    done = lambda i: progress("programs", i, n)  # noqa: E731
+    for pp, tf in pmap(programmed, split.pieces, done=done, meanwhile=_import_writers):
         findings.extend(tf)
         plans.append(pp)
 
@@ -237,6 +238,17 @@ def make_plan(
             )
         )
     return Plan(target, analysis, job, direction, split, allocation, tuple(plans), tuple(findings))
+
+
+def _import_writers() -> None:
+    """Import what :func:`write_plan` needs (matplotlib and ezdxf take about a second): done
+    while the workers build the programs, and inherited by the report's picture workers."""
+    import matplotlib.backends.backend_agg  # noqa: F401
+    import matplotlib.figure  # noqa: F401
+    import mpl_toolkits.axes_grid1.anchored_artists  # noqa: F401
+
+    import wirecut.export.dxf  # noqa: F401
+    import wirecut.export.report  # noqa: F401
 
 
 def _piece_plan(target, piece, job: JobProfile):

@@ -102,6 +102,7 @@ def pmap(
     fn: Callable[[T], R],
     items: Iterable[T],
     done: Callable[[int], None] | None = None,
+    meanwhile: Callable[[], None] | None = None,
 ) -> list[R]:
     """``[fn(x) for x in items]``, spread over worker processes where that can help.
 
@@ -114,6 +115,9 @@ def pmap(
         The inputs; also inherited, never pickled.
     done : callable (int) -> None, optional
         Told how many results are in, in order, as they arrive (for progress bars).
+    meanwhile : callable () -> None, optional
+        Called in this process while the workers run (after the plain loop when serial):
+        work for an otherwise idle parent, such as importing what a later stage needs.
     """
     global _TASK
     items = list(items)
@@ -124,13 +128,18 @@ def pmap(
             out.append(fn(x))
             if done is not None:
                 done(len(out))
+        if meanwhile is not None:
+            meanwhile()
         return out
     _TASK = (fn, items)
     try:
         ctx = multiprocessing.get_context("fork")
         with ProcessPoolExecutor(workers, mp_context=ctx, initializer=_mark_worker) as pool:
             out = []
-            for result in pool.map(_run, range(len(items))):
+            results = pool.map(_run, range(len(items)))  # the workers start here
+            if meanwhile is not None:
+                meanwhile()
+            for result in results:
                 out.append(result)
                 if done is not None:
                     done(len(out))

@@ -101,6 +101,29 @@ def test_two_writes_are_byte_identical(tmp_path, drawing) -> None:
     assert a == b
 
 
+def test_the_same_drawing_whatever_the_string_hash_seed() -> None:
+    # ezdxf orders its CLASSES entries by iterating over a set of type names, which follows
+    # the per-process string hash: seeds 4 and 5 gave different files before the classes were
+    # registered in a fixed order. Each run is a fresh interpreter with its own seed.
+    import os
+    import subprocess
+    import sys
+
+    code = (
+        "import hashlib, sys; sys.path.insert(0, 'tests/export'); import test_dxf as t; "
+        "from wirecut.export.dxf import dxf_text; "
+        "p = [t.make_piece('P01', t.square(0, 0, 400))]; "
+        "print(hashlib.sha256(dxf_text(p, None).encode()).hexdigest())"
+    )
+    seen = set()
+    for seed in ("4", "5", "7", "8"):
+        env = {**os.environ, "PYTHONHASHSEED": seed}
+        out = subprocess.run([sys.executable, "-c", code], env=env, capture_output=True,
+                             text=True, check=True)  # fmt: skip
+        seen.add(out.stdout.strip())
+    assert len(seen) == 1, seen
+
+
 def test_plain_text_strips_controls() -> None:
     assert plain_text("P01\n\x1b[31m") == "P01[31m"
     assert plain_text("100%%d") == "100%d"

@@ -150,6 +150,22 @@ def build_dxf(pieces: Sequence[Piece], allocation: Allocation | None):
     return doc
 
 
+def _register_classes(doc) -> None:
+    """Register the CLASSES section's entries in a fixed order before ezdxf writes it.
+
+    ezdxf adds a class for each entity type in use by iterating over a ``set`` of type names,
+    whose order follows Python's per-process string hash (PYTHONHASHSEED): the same drawing
+    came out with LAYOUT and ACDBPLACEHOLDER swapped from one run to the next. Registered here
+    first (ezdxf's required list, then the types in use sorted by name), they keep this order;
+    ezdxf skips classes already registered."""
+    from ezdxf.sections import classes
+
+    doc.commit_pending_changes()  # entities made at export time count as in use too
+    names = classes.REQUIRED_CLASSES.get(doc.dxfversion, classes.REQ_R2004)
+    for name in [*names, *sorted(doc.entitydb.dxf_types_in_use())]:
+        doc.classes.add_class(name)
+
+
 def dxf_text(pieces: Sequence[Piece], allocation: Allocation | None) -> str:
     """The drawing as DXF text, identical for identical input."""
     stream = io.StringIO()
@@ -158,6 +174,7 @@ def dxf_text(pieces: Sequence[Piece], allocation: Allocation | None) -> str:
     ezdxf.options.write_fixed_meta_data_for_testing = True
     try:
         doc = build_dxf(pieces, allocation)
+        _register_classes(doc)
         doc.write(stream)
     finally:
         ezdxf.options.write_fixed_meta_data_for_testing = previous
