@@ -83,6 +83,7 @@ _STEPS = 128  # samples per side of a marched line at most
 _BATCH = 128  # marched lines per vectorized batch
 _VERTICAL = 1e-9  # |n . w| below this is a vertical wall, not an undercut
 _BACKGROUND_FACES = 50_000  # from this many faces the undercut rays run beside the curvature
+_BACKGROUND_LINES = 500  # from this many marched lines, half are marched in a worker process
 _BLOCK = 16  # samples per line marched before checking which lines go on
 
 
@@ -273,32 +274,46 @@ def analyse_surface(target: TargetSurface, job: JobProfile) -> SurfaceAnalysis:
         # a developable point marches along its ruling: asymptotic directions of a nearly
         # zero k1 k2 lean off the ruling by atan(sqrt(|k_small / k_big|))
         options[kind == DEVELOPABLE, :2] = np.nan
-        best_len = np.zeros(len(pick))
-        best_dir = np.zeros((len(pick), 3))
         step = extent / _STEPS
         probe = _SurfaceProbe(target, cu)
-        for o in range(options.shape[1]):
-            dirs = options[pick, o]
-            ok = np.isfinite(dirs).all(axis=1)
-            if o == 2:
-                ok &= ~np.isfinite(options[pick, 0]).all(axis=1)
-            lens = np.zeros(len(pick))
-            if ok.any():
-                lens[ok], alpha = _march(probe, pick[ok], dirs[ok], step, extent, s)
-                if o < 2:
-                    # one Newton step onto the asymptotic line: a line off it by eps lies
-                    # alpha s^2 = -k_n'(t) eps s^2 / 2 from the surface, k_n'(t) = (k2 - k1)
-                    # sin 2t (Euler's formula); turning it by -eps = 2 alpha / k_n' cancels that
-                    turned = _turn_onto_asymptote(cu, pick[ok], dirs[ok], alpha)
-                    len2, _ = _march(probe, pick[ok], turned, step, extent, s)
-                    gain = len2 > lens[ok]
-                    sel = np.flatnonzero(ok)[gain]
-                    lens[sel] = len2[gain]
-                    dirs = dirs.copy()
-                    dirs[sel] = turned[gain]
-            better = lens > best_len
-            best_len[better] = lens[better]
-            best_dir[better] = dirs[better]
+
+        def march_from(lines: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+            """Longest reach (k,) mm and its direction (k, 3) from vertices pick[lines]."""
+            at = pick[lines]
+            best_len = np.zeros(len(at))
+            best_dir = np.zeros((len(at), 3))
+            for o in range(options.shape[1]):
+                dirs = options[at, o]
+                ok = np.isfinite(dirs).all(axis=1)
+                if o == 2:
+                    ok &= ~np.isfinite(options[at, 0]).all(axis=1)
+                lens = np.zeros(len(at))
+                if ok.any():
+                    lens[ok], alpha = _march(probe, at[ok], dirs[ok], step, extent, s)
+                    if o < 2:
+                        # one Newton step onto the asymptotic line: a line off it by eps lies
+                        # alpha s^2 = -k_n'(t) eps s^2 / 2 from the surface, k_n'(t) =
+                        # (k2 - k1) sin 2t (Euler's formula); turning it by -eps = 2 alpha / k_n'
+                        # cancels that
+                        turned = _turn_onto_asymptote(cu, at[ok], dirs[ok], alpha)
+                        len2, _ = _march(probe, at[ok], turned, step, extent, s)
+                        gain = len2 > lens[ok]
+                        sel = np.flatnonzero(ok)[gain]
+                        lens[sel] = len2[gain]
+                        dirs = dirs.copy()
+                        dirs[sel] = turned[gain]
+                better = lens > best_len
+                best_len[better] = lens[better]
+                best_dir[better] = dirs[better]
+            return best_len, best_dir
+
+        # each line is marched on its own: the second half in a worker process meanwhile
+        first, second = np.array_split(np.arange(len(pick)), 2)
+        other = background(lambda: march_from(second), min_size=_BACKGROUND_LINES, size=len(pick))
+        mine = march_from(first)
+        theirs = other.result()
+        best_len = np.concatenate([mine[0], theirs[0]])
+        best_dir = np.concatenate([mine[1], theirs[1]])
         unset = best_len <= 0
         best_dir[unset] = least[pick[unset]]
         best_len = np.minimum(best_len, extent)
@@ -505,15 +520,30 @@ def _march(
         num = (dp + dn) @ s2
         den = ((dp != 0) * 1.0 + (dn != 0) * 1.0) @ (s2 * s2)
         alpha[sl] = np.where(den > 0, num / np.where(den > 0, den, 1.0), 0.0)
-        # window [-i, +j] holds when each side alone fits and the two sides fit together:
-        # max(hp_j, hn_i) - min(lp_j, ln_i) <= allowed; every condition is monotone in j,
-        # so the feasible j of a given i form a prefix and their count is the longest j + 1
-        ok = (hp[:, None, :] <= ln[:, :, None] + allowed) & (
-            lp[:, None, :] >= hn[:, :, None] - allowed
-        )
-        ok &= okp[:, None, :]
-        count = ok.sum(axis=2)
-        count[~okn] = 0
-        best = np.where(count > 0, np.arange(k + 1)[None, :] + count - 1, 0).max(axis=1)
-        out[sl] = best * step
+        out[sl] = _longest_windows(hp, lp, okp, hn, ln, okn, allowed) * step
     return out, alpha
+
+
+def _longest_windows(hp, lp, okp, hn, ln, okn, allowed: float) -> np.ndarray:
+    """Longest window [-i, +j] (in steps, i + j) per line (r,) from the running extremes of
+    both sides (r, k + 1): it holds when each side alone fits (``okp``, ``okn``) and the two
+    fit together, ``max(hp_j, hn_i) - min(lp_j, ln_i) <= allowed``.
+
+    Every condition is monotone in j (hp rises, lp falls; a NaN only ever ends a row), so the
+    feasible j of a given i form a prefix, whose length is found by binary search in each
+    line's sorted hp and -lp: O(k log k) per line instead of testing all k^2 pairs."""
+    rows, width = hp.shape
+    j_side = np.where(okp.all(axis=1), width, np.argmin(okp, axis=1))
+    q_hi = ln + allowed  # hp_j <= ln_i + allowed
+    q_lo = allowed - hn  # -lp_j <= allowed - hn_i
+    neg_lp = -lp
+    j_hi = np.empty((rows, width), np.int64)
+    j_lo = np.empty((rows, width), np.int64)
+    for r in range(rows):
+        j_hi[r] = np.searchsorted(hp[r], q_hi[r], side="right")
+        j_lo[r] = np.searchsorted(neg_lp[r], q_lo[r], side="right")
+    j_hi[np.isnan(q_hi)] = 0  # a NaN bound admits nothing (searchsorted would admit all)
+    j_lo[np.isnan(q_lo)] = 0
+    count = np.minimum(np.minimum(j_hi, j_lo), j_side[:, None])
+    count[~okn] = 0
+    return np.where(count > 0, np.arange(width)[None, :] + count - 1, 0).max(axis=1)
