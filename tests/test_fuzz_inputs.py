@@ -10,7 +10,7 @@ from __future__ import annotations
 import tomllib
 
 import numpy as np
-from hypothesis import HealthCheck, given, settings
+from hypothesis import HealthCheck, example, given, settings
 from hypothesis import strategies as st
 
 from wirecut.config import default_job, parse_job
@@ -90,6 +90,10 @@ VALUES = st.one_of(
         max_size=4,
     )
 )
+# found by this test: a scalar where a [min, max] list belongs raised a TypeError
+@example({"machine": {"travel_x_mm": 0}})
+@example({"machine": {"travel_y_mm": 2.5}})
+@example({"mold": {"up": 1}})
 def test_profile_parsing_raises_only_profile_errors(doc):
     try:
         job = parse_job(doc)

@@ -328,8 +328,8 @@ def _machine(t: dict) -> MachineSpec:
         axes = tuple(a.upper() for a in raw)
     m = MachineSpec(
         span_mm=_positive(t.get("span_mm", d.span_mm), "machine.span_mm"),
-        travel_x_mm=_range(list(t.get("travel_x_mm", d.travel_x_mm)), "machine.travel_x_mm"),
-        travel_y_mm=_range(list(t.get("travel_y_mm", d.travel_y_mm)), "machine.travel_y_mm"),
+        travel_x_mm=_range(t.get("travel_x_mm", list(d.travel_x_mm)), "machine.travel_x_mm"),
+        travel_y_mm=_range(t.get("travel_y_mm", list(d.travel_y_mm)), "machine.travel_y_mm"),
         max_axis_speed_mm_s=_positive(
             t.get("max_axis_speed_mm_s", d.max_axis_speed_mm_s), "machine.max_axis_speed_mm_s"
         ),
@@ -437,7 +437,7 @@ def _pieces(t: dict) -> PieceRules:
 def _mold(t: dict) -> MoldSpec:
     d = MoldSpec()
     _check_keys(t, {"side", "base_mm", "up"}, "mold")
-    up = _vector(list(t.get("up", d.up)), "mold.up", 3)
+    up = _vector(t.get("up", list(d.up)), "mold.up", 3)
     n = math.sqrt(sum(u * u for u in up))
     if n < 1e-9:
         raise ProfileError("mold.up must be a non-zero vector")

@@ -178,21 +178,33 @@ def make_plan(
     findings.extend(getattr(allocation, "findings", ()))
     stock_of = {p.piece_id: p.stock for p in allocation.placements}
 
+    tol = job.tolerance.surface_mm
+
+    def standing(pp, tf) -> tuple:
+        """Worse first: no program, out of tolerance, a face slower than the kerf law knows
+        (the replay holds its kerf at the slowest measured speed, so it cannot see what a
+        crawling face melts away), then the replayed deviation."""
+        if pp.program is None:
+            return (True, True, True, np.inf)
+        dev = pp.deviation.max_abs_mm
+        return (False, dev > tol, any(f.code == "slow-face" for f in tf), dev)
+
     def programmed(piece):
         piece = replace(piece, stock=stock_of.get(piece.id, piece.stock))
         pp, tf = _piece_plan(target, piece, job)
-        tol = job.tolerance.surface_mm
-        if getattr(piece.fit, "skewed", False) and (
-            pp.program is None or pp.deviation.max_abs_mm > tol
-        ):
+        first = standing(pp, tf)
+        if getattr(piece.fit, "skewed", False) and any(first[:3]):
             # skewed rulings swing the towers further than parallel ones and can fan a face
-            # to a crawl: where the program fails, try the piece with parallel rulings
-            alt = _refit_parallel(target, piece, job)
+            # to a crawl: where the program fails, or a face crawls, try parallel rulings
+            why = (
+                "could not be driven within travel" if first[0]
+                else "left the tolerance once driven" if first[1]
+                else "made a face crawl below the speeds the kerf law was measured at"
+            )  # fmt: skip
+            alt = _refit_parallel(target, piece, job, why)
             if alt is not None:
                 pp2, tf2 = _piece_plan(target, alt[0], job)
-                if pp2.program is not None and (
-                    pp.program is None or pp2.deviation.max_abs_mm < pp.deviation.max_abs_mm
-                ):
+                if standing(pp2, tf2) < first:
                     pp, tf = pp2, [alt[1], *tf2]
         _ = pp.deviation  # computed in the worker, not again in the parent
         return pp, tf
@@ -205,7 +217,6 @@ def make_plan(
         findings.extend(tf)
         plans.append(pp)
 
-    tol = job.tolerance.surface_mm
     for pp in plans:
         r = pp.deviation
         if r.max_abs_mm > tol:
@@ -312,9 +323,9 @@ def _replaced_along_wire(piece, job: JobProfile, positions: int = 8):
     return None
 
 
-def _refit_parallel(target, piece, job: JobProfile):
+def _refit_parallel(target, piece, job: JobProfile, why: str):
     """(piece, finding) with the piece refitted with rulings perpendicular to the sweep (no
-    skew), or None when no such fit exists."""
+    skew), or None when no such fit exists; ``why`` says what the skewed rulings did."""
     from dataclasses import replace
 
     from wirecut.errors import JobError
@@ -332,8 +343,8 @@ def _refit_parallel(target, piece, job: JobProfile):
     flat = replace(piece, fit=fit)
     note = Finding(
         "refit-parallel",
-        f"piece {piece.id}: the skewed rulings of the best fit could not be driven within "
-        f"travel or tolerance; refitted with parallel rulings (fit deviation "
+        f"piece {piece.id}: the skewed rulings of the best fit {why}; refitted with "
+        "parallel rulings (fit deviation "
         f"{fit.report.max_abs_mm:.3f} mm instead of {piece.fit.report.max_abs_mm:.3f} mm)",
         piece.id,
         Severity.INFO,

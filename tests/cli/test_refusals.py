@@ -121,6 +121,19 @@ def test_bad_meshes_are_refused(tmp_path, capsys, name, data, word, command):
     assert not out.exists()
 
 
+@pytest.mark.parametrize("name", ["nan.stl", "inf.stl"])
+def test_bad_coordinates_print_one_line_in_a_real_run(tmp_path, name):
+    # in a process of its own, so that nothing (numpy's warnings as trimesh computes normals
+    # from NaN or infinite coordinates) is caught by pytest instead of reaching stderr
+    data = next(c[1] for c in MESH_CASES if c[0] == name)
+    mesh = _write(tmp_path, name, data)
+    proc = subprocess.run(
+        [sys.executable, "-m", "wirecut.cli", "check", str(mesh)],
+        capture_output=True, text=True, cwd=tmp_path,
+    )  # fmt: skip
+    _assert_refused(proc.returncode, proc.stderr, name.split(".")[0])
+
+
 def test_missing_file_and_folder(tmp_path, capsys):
     code, err = _run(["check", tmp_path / "nope.stl"], capsys)
     _assert_refused(code, err, "nope.stl")

@@ -230,3 +230,36 @@ def test_replay_does_not_read_the_planned_cut():
     b = replay(program, piece.block, JOB, samples)  # the block alone is enough
     np.testing.assert_array_equal(a.signed, b.signed)
     assert kerf_mm(JOB.wire.cut_speed_mm_s, JOB.wire) == pytest.approx(1.2)  # 0.9 + 1.2 / 4
+
+
+def _brute_distance(lo, hi, w, q):
+    """|distance| from each point to its own section by testing every segment (shapely)."""
+    out = np.empty(len(q))
+    for i in range(len(q)):
+        section = LineString((1 - w[i]) * lo + w[i] * hi)
+        out[i] = section.distance(Point(q[i]))
+    return out
+
+
+@pytest.mark.parametrize("fan", [0.0, 0.5, 2.0])
+def test_section_distance_is_exact_where_rulings_fan(fan):
+    from wirecut.gcode.replay import _signed_to_sections
+
+    # a lead-in down, a wavy profile along the sweep, a lead-out up; the far plane's vertices
+    # are spaced unlike the near one's (fan > 0: the rulings fan), which defeats a search by
+    # interpolated vertex index
+    rng = np.random.default_rng(3)
+    u = np.linspace(0.0, 1.0, 600)
+    x_lo = 1000.0 * u
+    x_hi = 1000.0 * u ** (1.0 + fan) + 40.0 * fan
+    y = lambda x: 100.0 + 8.0 * np.sin(x / 70.0)  # noqa: E731
+    lead = lambda x0, y0: np.column_stack([np.full(20, x0), np.linspace(y0 + 60, y0, 20)])  # noqa: E731
+    lo = np.vstack([lead(x_lo[0], y(x_lo[0])), np.column_stack([x_lo, y(x_lo)])])
+    hi = np.vstack([lead(x_hi[0], y(x_hi[0]) + 5), np.column_stack([x_hi, y(x_hi) + 5.0])])
+    w = rng.uniform(0.0, 1.0, 400)
+    k = rng.integers(0, len(lo) - 1, 400)
+    on = (1 - w[:, None]) * lo[k] + w[:, None] * hi[k]
+    q = on + rng.normal(0.0, 0.5, (400, 2))
+    got = np.abs(_signed_to_sections(lo, hi, w, q))
+    # shapely's distance (GEOS) tests every segment: the reference
+    np.testing.assert_allclose(got, _brute_distance(lo, hi, w, q), atol=1e-9)

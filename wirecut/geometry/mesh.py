@@ -283,7 +283,10 @@ def _read_arrays(path: Path) -> tuple[np.ndarray, np.ndarray]:
     import trimesh
 
     try:
-        loaded = trimesh.load(str(path), file_type=SUPPORTED_SUFFIXES[suffix], process=False)
+        # trimesh computes face normals as it reads: NaN or infinite coordinates would print
+        # numpy's warnings beside the one-line refusal that _build gives them
+        with np.errstate(all="ignore"):
+            loaded = trimesh.load(str(path), file_type=SUPPORTED_SUFFIXES[suffix], process=False)
     except Exception as exc:  # trimesh raises many kinds on garbage; none may escape
         detail = "" if isinstance(exc, ImportError) else f" ({exc.__class__.__name__})"
         raise MeshError(
