@@ -22,8 +22,9 @@ sweep. For fixed x-positions the cut height at a sample is linear in the 2K unkn
    lines through each knot, the straightest in the target, chained by dynamic programming;
    the two asymptotic families of a local quadratic fit of the height field (the directions
    along which its Hessian vanishes). Slopes are limited to |dx/dz| <= 1 (rulings within 45
-   degrees of the wire axis); hinge rows keep ``|s_{k+1} - s_k| < 1.95 dX`` so rulings never
-   cross inside the block, and the end rulings keep every sample covered. Step 2 is then run
+   degrees of the wire axis); every trial is projected onto ``|s_{k+1} - s_k| <= 0.96 dX``
+   (``skew.CROSSING``) so rulings never cross inside the block and neither face crawls, and
+   the end rulings keep every sample covered. Step 2 is then run
    again and the result kept only when it lowers the max deviation (the excess for
    no-gouge) without losing coverage. Step 3 is skipped when steps 1-2 are already within
    10 % of the tolerance or no seeded skew beats vertical rulings by 2 % in cost. The seeds

@@ -4,9 +4,12 @@ A ruling k is its mid-plane knot ``X_k`` and its skew ``s_k = xR_k - xL_k``. Thi
 seeds for the skews (a scan of straight lines through the target chained by dynamic
 programming; the asymptotic directions of local quadratic fits) and refines skews and heights
 together by Levenberg-Marquardt (Levenberg 1944, Marquardt 1963) on the sparse normal
-equations of an analytic Jacobian. Rulings never cross: neighbouring skews stay less than
-``_CROSSING`` knot spacings apart (two rulings cross inside the block once
-``|s_{k+1} - s_k| >= 2 dX``). See :mod:`wirecut.ruled.fit` for how the steps fit together.
+equations of an analytic Jacobian. Neighbouring skews stay at most ``CROSSING`` knot spacings
+apart: two rulings would cross inside the block at ``|s_{k+1} - s_k| = 2 dX``, and well before
+that one block face crawls while the other moves, since between the two rulings the faces
+travel ``dX -+ (s_{k+1} - s_k) / 2`` in the same time. ``CROSSING`` keeps the slower face's
+share of that travel at least ``FACE_TRAVEL_SHARE``. See :mod:`wirecut.ruled.fit` for how the
+steps fit together.
 """
 
 from __future__ import annotations
@@ -32,6 +35,7 @@ __all__ = [
     "second_difference",
     "MAX_SLOPE",
     "CROSSING",
+    "FACE_TRAVEL_SHARE",
 ]
 
 _SMOOTH = 1e-3  # relative weight of the second-difference smoothing rows
@@ -39,8 +43,16 @@ _LM_STEPS = 40
 _LM_SETTLED = 1e-3  # stop once a step lowers the cost by less than 0.1 %: the LP that follows
 # sets the heights anew, and the skews barely move past this point
 _SCAN_CANDIDATES = 61
-#: Largest skew change between neighbouring rulings, in knot spacings (crossing at 2).
-CROSSING = 1.95
+#: Least share of the faster face's travel along the sweep that the slower face makes between
+#: two rulings. The kerf law is known down to a quarter of the cut speed
+#: (``wirecut.toolpath.kerf.SLOW_FACE_SHARE``); the margin above it covers what the rise of
+#: the surface and the kerf offsets add to one face's path. At 1.95 knot spacings (the rule
+#: was only that rulings must not cross) the skewed pieces of a doubly curved panel fanned a
+#: face down to 1 % of the other's speed.
+FACE_TRAVEL_SHARE = 0.35
+#: Largest skew change between neighbouring rulings, in knot spacings (rulings cross at 2):
+#: ``(dX - d/2) / (dX + d/2) >= FACE_TRAVEL_SHARE``, about 0.96.
+CROSSING = 2.0 * (1.0 - FACE_TRAVEL_SHARE) / (1.0 + FACE_TRAVEL_SHARE)
 #: Largest ruling slope |dx/dz|: rulings within 45 degrees of the wire axis.
 MAX_SLOPE = 1.0
 
@@ -223,15 +235,27 @@ def end_bounds(x, t, knots) -> tuple[np.ndarray, np.ndarray]:
 
 
 def monotone_seed(s: np.ndarray, dx: float, lb: np.ndarray, ub: np.ndarray) -> np.ndarray:
-    """Clip a skew seed into [lb, ub] with neighbouring skews less than 2 dx apart (rulings
-    that do not cross)."""
-    s = np.clip(s, lb, ub)
+    """Clip a skew seed into [lb, ub] with neighbouring skews at most ``CROSSING dx`` apart
+    (rulings that do not cross, faces that do not crawl).
+
+    The bounds are first tightened by what the neighbour rule carries along the rulings (a
+    tight bound at an end ruling limits the rulings next to it), so that the clipping passes
+    that follow always find a value within both the bounds and the rule."""
     gap = CROSSING * dx
+    lo = np.array(lb, float)
+    hi = np.array(ub, float)
     for k in range(1, len(s)):
-        s[k] = np.clip(s[k], s[k - 1] - gap, s[k - 1] + gap)
+        lo[k], hi[k] = max(lo[k], lo[k - 1] - gap), min(hi[k], hi[k - 1] + gap)
     for k in range(len(s) - 2, -1, -1):
-        s[k] = np.clip(s[k], s[k + 1] - gap, s[k + 1] + gap)
-    return np.clip(s, lb, ub)
+        lo[k], hi[k] = max(lo[k], lo[k + 1] - gap), min(hi[k], hi[k + 1] + gap)
+    if np.any(lo > hi):  # bounds no skew can meet together: the plainest that meets them
+        return np.clip(np.zeros(len(s)), lb, ub)
+    s = np.clip(s, lo, hi)
+    for k in range(1, len(s)):
+        s[k] = min(max(s[k], s[k - 1] - gap, lo[k]), s[k - 1] + gap, hi[k])
+    for k in range(len(s) - 2, -1, -1):
+        s[k] = min(max(s[k], s[k + 1] - gap, lo[k]), s[k + 1] + gap, hi[k])
+    return s
 
 
 def skew_solve(pts, c, knots, s0, y0, z_left, z_right, m, lb, ub):
@@ -239,8 +263,8 @@ def skew_solve(pts, c, knots, s0, y0, z_left, z_right, m, lb, ub):
     1963) on the sparse normal equations of an analytic Jacobian. Bounds and the rule that
     rulings never cross (the rulings k and k + 1 cross inside the block once
     ``|s_{k+1} - s_k| >= 2 dX``) are kept by projecting every trial skew with
-    :func:`monotone_seed` (neighbours within 1.95 dX), so the cost is always that of a cut the
-    machine can make. Knots evenly spaced."""
+    :func:`monotone_seed` (neighbours within ``CROSSING`` dX), so the cost is always that of
+    a cut the machine can make. Knots evenly spaced."""
     k = len(knots)
     x, yt, z = pts[:, 0], pts[:, 1], pts[:, 2]
     d2 = second_difference(k)
