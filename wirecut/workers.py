@@ -156,6 +156,13 @@ class _Later:
         self._done = False
         self._value: Any = None
 
+    def wait(self) -> None:
+        """Wait until the job has ended, whatever it ended with (nothing is raised)."""
+        try:
+            self.result()
+        except BaseException:  # noqa: BLE001 - the caller is already handling an error
+            pass
+
     def result(self) -> Any:
         if not self._done:
             if self._proc is None:

@@ -376,3 +376,17 @@ def test_picture_runs_draw_every_piece_once(n, processes):
     runs = _picture_runs(n, processes)
     assert 1 <= len(runs) <= processes
     assert sorted(j for r in runs for j in r) == list(range(n))
+
+
+def test_an_error_meanwhile_is_raised_after_the_workers_end(tmp_path, monkeypatch):
+    monkeypatch.setenv("WIRECUT_WORKERS", "2")
+
+    def fail() -> None:
+        raise OutputError("cannot write pieces.dxf")
+
+    with pytest.raises(OutputError, match="pieces.dxf"):
+        write_report(_data(), tmp_path, meanwhile=fail)
+    # the pictures the workers were drawing are complete, not cut off mid-file
+    for png in (tmp_path / "report_files").glob("*.png"):
+        assert png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    assert not (tmp_path / "report.html").exists()

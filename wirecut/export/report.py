@@ -578,9 +578,14 @@ def write_report(
         background(lambda r=r, last=i == len(runs) - 1: draw([data.pieces[j] for j in r], last))
         for i, r in enumerate(runs[1:], start=1)
     ]
-    if meanwhile is not None:
-        meanwhile()
-    draw([data.pieces[j] for j in runs[0]], len(runs) == 1)
+    try:
+        if meanwhile is not None:
+            meanwhile()
+        draw([data.pieces[j] for j in runs[0]], len(runs) == 1)
+    except BaseException:
+        for job in later:  # let the workers finish before the caller discards the folder
+            job.wait()
+        raise
     for job in later:
         job.result()
     text = _page(data, out_dir, "report_files/plan_view.png", piece_imgs)

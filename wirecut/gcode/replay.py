@@ -315,7 +315,8 @@ def _signed_to_sections(lo: np.ndarray, hi: np.ndarray, w: np.ndarray, q: np.nda
     adjacent segments' normals (the pseudo-normal of a polyline).
 
     The nearest segment is found exactly, in two steps, within bins of w thin enough that a
-    vertex moves at most ``_BIN_SHIFT_MM`` along x within one. Each segment's x extent over
+    vertex moves at most ``_BIN_SHIFT_MM`` along x within one (up to ``_MAX_BINS``; thicker
+    bins only widen the candidate ranges). Each segment's x extent over
     the bin's w range gives, through its running maximum and its reversed running minimum,
     for any x interval one index range holding every segment that can meet it (a cut's path
     runs along the sweep, so the ranges stay short). First a guess: the few segments around
@@ -348,7 +349,6 @@ def _signed_to_sections(lo: np.ndarray, hi: np.ndarray, w: np.ndarray, q: np.nda
         first = np.clip(near - m, 0, max(n - 2 - 2 * m, 0))
         j[idx], tj[idx], f[idx], d2[idx] = _in_window(lo, hi, w[idx], q[idx], first, m)
         r = np.sqrt(d2[idx]) * (1.0 + 1e-9) + 1e-9
-        qx = q[idx, 0]
         k0 = np.searchsorted(top, qx - r, side="left")
         k1 = np.searchsorted(bottom, qx + r, side="right")
         count = np.maximum(k1 - k0, 0)
