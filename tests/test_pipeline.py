@@ -77,6 +77,8 @@ def test_plan_writes_every_interface_key(planned):
         assert np.asarray(p["part_to_machine"]).shape == (4, 4)
     for name in ("report.html", "pieces.dxf", "rationalized.ply", "deviation.png"):
         assert (out / name).is_file(), name
+    # the report names the part it plans
+    assert "<title>wirecut plan: saddle.stl</title>" in (out / "report.html").read_text("utf-8")
     # no half-written leftovers beside the output
     assert not [p for p in out.parent.iterdir() if ".partial-" in p.name]
 

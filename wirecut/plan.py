@@ -509,7 +509,9 @@ def write_plan(plan: Plan, out_dir: Path, progress: Progress | None = None) -> d
     from wirecut.export.report import write_report
     from wirecut.export.report_data import report_data
 
-    write_report(report_data(plan, data), out_dir, meanwhile=files)
+    source = str(getattr(plan.target, "source", "") or "")
+    title = f"wirecut plan: {source}" if source not in ("", "arrays") else "wirecut plan"
+    write_report(report_data(plan, data, title=title), out_dir, meanwhile=files)
     # deviation.png is the report's plan view (the same picture: wirecut.export.rational)
     try:
         shutil.copyfile(out_dir / "report_files" / "plan_view.png", out_dir / "deviation.png")
