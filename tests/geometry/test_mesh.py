@@ -228,13 +228,19 @@ def test_every_format_refuses_garbage(tmp_path, suffix, kind):
         load_target(path, JOB)
 
 
-def test_unique_rows_is_numpys_unique() -> None:
+@pytest.mark.parametrize(
+    "spans",
+    [(4, 4, 4), (2**30, 2**30, 2**30), (2**40, 3, 2**20), (2**61, 2**61, 5), (1, 1, 1)],
+)
+def test_unique_rows_is_numpys_unique(spans) -> None:
     # the vertex merge's own row dedup gives exactly np.unique(axis=0)'s first indices and
-    # inverse (numpy is the reference)
+    # inverse (numpy is the reference), whether its columns pack into one sort key, two or
+    # none
     from wirecut.geometry.mesh import _unique_rows
 
     rng = np.random.default_rng(7)
-    q = rng.integers(-4, 4, (5000, 3)).astype(np.int64)
+    q = np.column_stack([rng.integers(-s, s, 5000) for s in spans]).astype(np.int64)
+    q = np.vstack([q, q[::3]])  # repeated rows
     _, first, inverse = np.unique(q, axis=0, return_index=True, return_inverse=True)
     f, inv = _unique_rows(q)
     assert np.array_equal(f, first)

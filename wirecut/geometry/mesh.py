@@ -376,12 +376,38 @@ def target_from_arrays(
     return _build(v, f.astype(np.int64), job, units, "arrays")
 
 
+def _packed_columns(q: np.ndarray) -> list[np.ndarray]:
+    """The columns of the integer array q (n, d), most significant first, with runs of
+    neighbouring columns packed into one int64 key where their ranges fit in 62 bits: the
+    keys order the rows as the columns do."""
+    lo, hi = q.min(axis=0), q.max(axis=0)
+    if int(lo.min()) < -(2**61) or int(hi.max()) > 2**61:  # a range could overflow int64
+        return [q[:, j] for j in range(q.shape[1])]
+    bits = [int(r).bit_length() for r in (hi - lo)]
+    keys: list[np.ndarray] = []
+    key, used = None, 0
+    for j in range(q.shape[1]):
+        col = q[:, j] - lo[j]
+        if key is not None and used + bits[j] <= 62:
+            key = (key << bits[j]) | col
+            used += bits[j]
+        else:
+            if key is not None:
+                keys.append(key)
+            key, used = col, bits[j]
+    keys.append(key)
+    return keys
+
+
 def _unique_rows(q: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """``np.unique(q, axis=0, return_index=True, return_inverse=True)`` without the unique
     rows themselves: (index of each unique row's first occurrence, in lexicographic row
     order; the unique row of every input row). One stable lexsort instead of the structured
-    view np.unique sorts, several times faster on millions of rows."""
-    order = np.lexsort(q.T[::-1])
+    view np.unique sorts, several times faster on millions of rows. Neighbouring columns whose
+    value ranges fit in 62 bits together are packed into one key first (the same order, one
+    sort key fewer)."""
+    keys = _packed_columns(q) if len(q) else [q[:, j] for j in range(q.shape[1])]
+    order = np.lexsort(keys[::-1]) if len(keys) > 1 else np.argsort(keys[0], kind="stable")
     s = q[order]
     starts = np.r_[True, np.any(s[1:] != s[:-1], axis=1)] if len(s) else np.zeros(0, bool)
     group = np.cumsum(starts) - 1
@@ -418,7 +444,8 @@ def _build(
     if faces.min() < 0 or faces.max() >= len(vertices):
         raise MeshError(f"{label} has face indices outside 0..{len(vertices) - 1}")
     unit = Units.MM if units is None else Units(units)
-    raw_diag = float(np.linalg.norm(np.ptp(vertices, axis=0)))
+    # per column: a reduction along axis 0 of an (n, 3) array walks it with a stride
+    raw_diag = float(np.linalg.norm([np.ptp(vertices[:, j]) for j in range(3)]))
     vertices = vertices * unit.to_mm
     diag = raw_diag * unit.to_mm
     if diag == 0.0:
@@ -432,7 +459,8 @@ def _build(
 
     # merge duplicate vertices
     n_in, m_in = len(vertices), len(faces)
-    q = np.rint(vertices * (1.0 / (diag * 1e-9))).astype(np.int64)
+    q = vertices * (1.0 / (diag * 1e-9))
+    q = np.rint(q, out=q).astype(np.int64)
     first, inv = _unique_rows(q)
     vertices = vertices[first]
     faces = inv[faces]
