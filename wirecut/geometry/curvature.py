@@ -281,7 +281,7 @@ def _fit_quadrics(
     # independent per vertex: a large mesh is fitted in runs, all but the first in worker
     # processes; the first (smaller, as this process has ``meanwhile`` to do too) here
     runs = worker_count() if n >= 2 * _CHUNK else 1
-    share = np.r_[0.0, 0.7, np.full(runs - 1, 1.0)] if runs > 1 else np.r_[0.0, 1.0]
+    share = np.r_[0.0, 0.5, np.full(runs - 1, 1.0)] if runs > 1 else np.r_[0.0, 1.0]
     edges = np.rint(n * np.cumsum(share) / share.sum()).astype(int)
     spans = [(int(a), int(b)) for a, b in zip(edges[:-1], edges[1:], strict=True)]
     later = [background(lambda s=s: fit_range(s)) for s in spans[1:]]
