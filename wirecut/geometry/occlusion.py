@@ -3,10 +3,9 @@
 A ray parallel to the waste direction ``w`` (``mold.up`` for a mold kept below, ``-mold.up``
 for a counter-mold) is a point in plan view, so casting it is exact and cheap: a point-in-triangle
 test in the part plan (:func:`wirecut.geometry.frames.to_plan` with ``mold.up``) with heights
-``p . w``. Triangles are bucketed once on a uniform plan grid whose cell is the median of
-``sqrt(width * depth)`` of their plan bounding boxes (grown until the (triangle, cell) pairs stay
-under ``8 m + 10^6``); triangles seen edge-on (plan area below 1e-12 of the extent squared) are
-vertical and never hit.
+``p . w``. Triangles are bucketed once on a uniform plan grid
+(:class:`wirecut.geometry.plan_grid.PlanGrid`); triangles seen edge-on (plan area below 1e-12
+of the extent squared) are vertical and never hit.
 
 Used by the analysis (undercut: the ray from a vertex meets the target again) and by the check
 map (what the wire sees first at every pixel).
@@ -20,6 +19,7 @@ import numpy as np
 
 from wirecut.geometry.frames import to_plan
 from wirecut.geometry.mesh import TargetSurface
+from wirecut.geometry.plan_grid import PlanGrid
 
 __all__ = ["occluded_vertices", "first_hit_faces"]
 
@@ -32,12 +32,7 @@ class _PlanIndex:
     height: np.ndarray  # (n,) mm, p . w
     faces: np.ndarray  # (m, 3)
     det: np.ndarray  # (m,) mm^2, twice the signed plan area of each face
-    key: np.ndarray  # (p,) sorted cell keys of (face, cell) pairs
-    face_of: np.ndarray  # (p,) face of each pair
-    lo: np.ndarray  # (2,) mm, grid origin
-    cell: float  # mm
-    nx: int
-    ny: int
+    grid: PlanGrid  # the faces that are not edge-on, by their plan boxes
 
     @classmethod
     def build(cls, target: TargetSurface) -> _PlanIndex | None:
@@ -51,43 +46,16 @@ class _PlanIndex:
         tid = np.flatnonzero(np.abs(det) > 1e-12 * scale**2)
         if tid.size == 0:
             return None
-        lo_t, hi_t = tri[tid].min(axis=1), tri[tid].max(axis=1)
-        lo = plan.min(axis=0)
-        size = hi_t - lo_t
-        cell = max(float(np.median(np.sqrt(size[:, 0] * size[:, 1]))), 1e-9 * scale, 1e-12)
-        for _ in range(40):
-            i0 = np.floor((lo_t - lo) / cell).astype(np.int64)
-            i1 = np.floor((hi_t - lo) / cell).astype(np.int64)
-            span = (i1 - i0 + 1).prod(axis=1)
-            if span.sum() <= 8 * len(tid) + 1_000_000:
-                break
-            cell *= 1.5
-        nx = int(np.floor(np.ptp(plan[:, 0]) / cell)) + 2
-        ny = int(np.floor(np.ptp(plan[:, 1]) / cell)) + 2
-        # expand every triangle into the cells its plan bounding box covers
-        rep = np.repeat(np.arange(len(tid)), span)
-        offs = np.arange(len(rep)) - np.repeat(np.cumsum(span) - span, span)
-        w_cells = (i1[:, 1] - i0[:, 1] + 1)[rep]
-        key = (i0[rep, 0] + offs // w_cells) * ny + (i0[rep, 1] + offs % w_cells)
-        order = np.argsort(key, kind="stable")
-        return cls(plan, v @ w, f, det, key[order], tid[rep[order]], lo, cell, nx, ny)
+        grid = PlanGrid.of_boxes(
+            tri[tid].min(axis=1), tri[tid].max(axis=1), tid, plan.min(axis=0), np.ptp(plan, axis=0)
+        )
+        return cls(plan, v @ w, f, det, grid)
 
     def hits(self, points: np.ndarray, chunk: int = 200_000):
         """Yield (query index (k,), face (k,), height (k,) mm) for every face holding a point."""
-        ij = np.floor((np.asarray(points, float) - self.lo) / self.cell).astype(np.int64)
-        valid = (ij >= 0).all(axis=1) & (ij[:, 0] < self.nx) & (ij[:, 1] < self.ny)
-        pkey = np.where(valid, ij[:, 0] * self.ny + ij[:, 1], -1)
-        start = np.searchsorted(self.key, pkey, side="left")
-        cnt = np.where(valid, np.searchsorted(self.key, pkey, side="right") - start, 0)
+        points = np.asarray(points, float)
         f, plan = self.faces, self.plan
-        for c0 in range(0, len(points), chunk):
-            sl = slice(c0, min(len(points), c0 + chunk))
-            qn = cnt[sl]
-            qi = np.repeat(np.arange(sl.start, sl.stop), qn)
-            pos = np.repeat(start[sl], qn) + (
-                np.arange(len(qi)) - np.repeat(np.cumsum(qn) - qn, qn)
-            )
-            t = self.face_of[pos]
+        for qi, t in self.grid.candidates(points, chunk):
             p = points[qi]
             ta, tb, tc = plan[f[t, 0]], plan[f[t, 1]], plan[f[t, 2]]
             d = self.det[t]

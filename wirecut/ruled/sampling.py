@@ -35,6 +35,7 @@ import shapely
 
 from wirecut.errors import MeshError
 from wirecut.geometry.frames import apply, to_plan
+from wirecut.geometry.plan_grid import PlanGrid
 
 __all__ = [
     "TargetSamples",
@@ -234,7 +235,7 @@ class _Prepared:
         self.det = (b[:, 0] - a[:, 0]) * (c[:, 1] - a[:, 1]) - (b[:, 1] - a[:, 1]) * (
             c[:, 0] - a[:, 0]
         )
-        self._tree: tuple[shapely.STRtree, np.ndarray] | None = None
+        self._grid: PlanGrid | None = None
         self.faces = faces
         self._edge_use = getattr(target, "edge_use", None)
         self._detail: float | None = None
@@ -264,15 +265,19 @@ class _Prepared:
             self._detail = math.sqrt(8.0 * DETAIL_SAG_MM / k99) if k99 > 0 else math.inf
         return self._detail
 
-    def plan_tree(self) -> tuple[shapely.STRtree, np.ndarray]:
-        """Search tree of the plan triangles that are not edge-on, and their face indices
-        (built on first use)."""
-        if self._tree is None:
+    def plan_grid(self) -> PlanGrid | None:
+        """Plan grid of the triangles that are not edge-on, by face index (built on first
+        use; None when every triangle is edge-on)."""
+        if self._grid is None:
             usable = np.flatnonzero(np.abs(self.det) > 1e-9)
-            tri = self.tri_plan[usable]
-            polys = shapely.polygons(np.concatenate([tri, tri[:, :1]], axis=1))
-            self._tree = (shapely.STRtree(polys), usable)
-        return self._tree
+            if len(usable) == 0:
+                return None
+            lo = self.box_lo[usable].min(axis=0)
+            span = self.box_hi[usable].max(axis=0) - lo
+            self._grid = PlanGrid.of_boxes(
+                self.box_lo[usable], self.box_hi[usable], usable, lo, span
+            )
+        return self._grid
 
     def faces_near(self, region: shapely.Geometry) -> np.ndarray:
         """Ascending indices of the faces whose plan bounding box meets the region's."""
@@ -308,9 +313,9 @@ def default_spacing(target: Any, density: float = 1.0) -> float:
 
 
 def prepare_sampling(target: Any) -> None:
-    """Compute once what sampling ``target`` needs (its triangles, plan search tree), so that
+    """Compute once what sampling ``target`` needs (its triangles, plan grid), so that
     worker processes forked afterwards inherit it instead of each building its own."""
-    _prepared(target).plan_tree()
+    _prepared(target).plan_grid()
 
 
 def _boundary_samples(
@@ -321,11 +326,21 @@ def _boundary_samples(
     pts = shapely.get_coordinates(outline)
     if len(pts) == 0:
         return np.zeros(0, int), np.zeros((0, 2)), np.zeros((0, 2))
-    tree, usable = prep.plan_tree()
-    if len(usable) == 0:
+    grid = prep.plan_grid()
+    if grid is None:
         return np.zeros(0, int), np.zeros((0, 2)), np.zeros((0, 2))
-    ip, it = tree.query(shapely.points(pts), predicate="intersects")
-    f = usable[it]
+    # the grid's candidates, then shapely's exact test (a point on an edge or a corner
+    # touches every triangle there, as a search tree's "intersects" query says)
+    hits = []
+    for ip, it in grid.candidates(pts):
+        tri = prep.tri_plan[it]
+        near = (pts[ip] >= prep.box_lo[it]).all(axis=1) & (pts[ip] <= prep.box_hi[it]).all(axis=1)
+        ip, it, tri = ip[near], it[near], tri[near]
+        polys = shapely.polygons(np.concatenate([tri, tri[:, :1]], axis=1))
+        keep = shapely.intersects(shapely.points(pts[ip]), polys)
+        hits.append((ip[keep], it[keep]))
+    ip = np.concatenate([h[0] for h in hits]) if hits else np.zeros(0, np.int64)
+    f = np.concatenate([h[1] for h in hits]) if hits else np.zeros(0, np.int64)
     p = pts[ip]
     tri_plan = prep.tri_plan
     a, b, c = tri_plan[f, 0], tri_plan[f, 1], tri_plan[f, 2]
