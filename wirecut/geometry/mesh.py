@@ -408,8 +408,12 @@ def _unique_rows(q: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     sort key fewer)."""
     keys = _packed_columns(q) if len(q) else [q[:, j] for j in range(q.shape[1])]
     order = np.lexsort(keys[::-1]) if len(keys) > 1 else np.argsort(keys[0], kind="stable")
-    s = q[order]
-    starts = np.r_[True, np.any(s[1:] != s[:-1], axis=1)] if len(s) else np.zeros(0, bool)
+    starts = np.zeros(len(q), bool)
+    if len(q):
+        starts[0] = True
+        for key in keys:  # a new row wherever any key changes
+            sk = key[order]
+            starts[1:] |= sk[1:] != sk[:-1]
     group = np.cumsum(starts) - 1
     inv = np.empty(len(q), np.int64)
     inv[order] = group
