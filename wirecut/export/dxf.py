@@ -161,7 +161,10 @@ def _register_classes(doc) -> None:
     from ezdxf.sections import classes
 
     doc.commit_pending_changes()  # entities made at export time count as in use too
-    names = classes.REQUIRED_CLASSES.get(doc.dxfversion, classes.REQ_R2004)
+    # ezdxf's own list of the classes a version requires, in its order (module data, not API:
+    # without it the sorted types alone still fix the order)
+    required = getattr(classes, "REQUIRED_CLASSES", {})
+    names = required.get(doc.dxfversion, getattr(classes, "REQ_R2004", ()))
     for name in [*names, *sorted(doc.entitydb.dxf_types_in_use())]:
         doc.classes.add_class(name)
 

@@ -334,6 +334,7 @@ def _boundary_samples(
     hits = []
     for ip, it in grid.candidates(pts):
         tri = prep.tri_plan[it]
+        # a cell holds boxes that miss the point: drop those before making polygons
         near = (pts[ip] >= prep.box_lo[it]).all(axis=1) & (pts[ip] <= prep.box_hi[it]).all(axis=1)
         ip, it, tri = ip[near], it[near], tri[near]
         polys = shapely.polygons(np.concatenate([tri, tri[:, :1]], axis=1))
