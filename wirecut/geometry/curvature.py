@@ -44,6 +44,7 @@ import numpy as np
 from scipy import sparse
 
 from wirecut.geometry.mesh import TargetSurface
+from wirecut.geometry.vectors import cross
 
 __all__ = ["Curvature", "vertex_curvature", "angle_defects", "mixed_areas", "tangent_frames"]
 
@@ -52,6 +53,11 @@ _NP = 9  # coefficients of the cubic height fit
 # exponents (a, b) of its monomials u^a v^b, in coefficient order
 _EXPONENTS = ((2, 0), (1, 1), (0, 2), (1, 0), (0, 1), (3, 0), (2, 1), (1, 2), (0, 3))
 _MAX_RING = 32  # neighbours per vertex used by the fit at most
+_EXP_A = np.array([a for a, _ in _EXPONENTS])
+_EXP_B = np.array([b for _, b in _EXPONENTS])
+# moment (a, b) indices of each normal-equation entry (i, j): u^(ai + aj) v^(bi + bj)
+_PAIR_A = _EXP_A[:, None] + _EXP_A[None, :]
+_PAIR_B = _EXP_B[:, None] + _EXP_B[None, :]
 
 
 @dataclass(frozen=True, eq=False)
@@ -179,7 +185,7 @@ def tangent_frames(normals: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     ref[~use_x, 1] = 1.0
     t1 = ref - np.einsum("ij,ij->i", ref, normals)[:, None] * normals
     t1 /= np.linalg.norm(t1, axis=1, keepdims=True)
-    t2 = np.cross(normals, t1)
+    t2 = cross(normals, t1)
     return t1, t2
 
 
@@ -197,46 +203,41 @@ def _two_ring(faces: np.ndarray, n: int) -> sparse.csr_matrix:
 
 
 def _fit_chunk(vertices, normals, t1, t2, indptr, indices, start: int, stop: int) -> np.ndarray:
-    """Coefficients (stop - start, 9) of the height fits of vertices start..stop-1."""
-    lo, hi = indptr[start], indptr[stop]
-    cols = indices[lo:hi]
-    count = np.diff(indptr[start : stop + 1])
-    rows = np.repeat(np.arange(start, stop), count)
-    d = vertices[cols] - vertices[rows]
-    u = np.einsum("ij,ij->i", d, t1[rows])
-    v = np.einsum("ij,ij->i", d, t2[rows])
-    h = np.einsum("ij,ij->i", d, normals[rows])
-    # scale each row's coordinates by its neighbourhood size for conditioning
-    local = rows - start
-    scale = np.sqrt(np.bincount(local, weights=u * u + v * v, minlength=stop - start))
-    scale = np.where(scale > 0, scale / np.sqrt(np.maximum(count, 1)), 1.0)
-    s = scale[local]
-    us, vs, hs = u / s, v / s, h / s
-    # neighbours beyond the first _MAX_RING of a vertex are dropped; the normal equations are
-    # sums over the neighbours of products of monomials u^a v^b, so they are assembled from
-    # the 25 moments sum u^a v^b (2 <= a + b <= 6) and the 9 sums h u^a v^b
-    pos = np.arange(hi - lo) - (indptr[start:stop] - lo)[local]
-    keep = pos < _MAX_RING
+    """Coefficients (stop - start, 9) of the height fits of vertices start..stop-1.
+
+    Each vertex's first ``_MAX_RING`` neighbours (in ring order) are laid out as one column of
+    an (r, m) table, r the chunk's largest count; a short column is padded with the vertex
+    itself, whose offset (0, 0, 0) adds nothing to any sum below. Sums over a column then run
+    over the table's first axis, contiguous per row, instead of scattering into bins.
+    """
     m = stop - start
-    li, uk, vk, hk = local[keep], us[keep], vs[keep], hs[keep]
-    pu, pv = [np.ones_like(uk)], [np.ones_like(vk)]
-    for _ in range(6):
-        pu.append(pu[-1] * uk)
-        pv.append(pv[-1] * vk)
-    moment: dict[tuple[int, int], np.ndarray] = {}
-
-    def summed(a: int, b: int) -> np.ndarray:
-        if (a, b) not in moment:
-            moment[a, b] = np.bincount(li, weights=pu[a] * pv[b], minlength=m)
-        return moment[a, b]
-
-    ata = np.empty((m, _NP, _NP))
-    atb = np.empty((m, _NP))
-    for i, (ai, bi) in enumerate(_EXPONENTS):
-        atb[:, i] = np.bincount(li, weights=hk * pu[ai] * pv[bi], minlength=m)
-        for j, (aj, bj) in enumerate(_EXPONENTS[: i + 1]):
-            ata[:, i, j] = ata[:, j, i] = summed(ai + aj, bi + bj)
-    count = np.minimum(count, _MAX_RING)
+    count = np.minimum(np.diff(indptr[start : stop + 1]), _MAX_RING)
+    r = int(count.max()) if m else 0
+    pos = np.arange(r)[:, None]
+    at = np.minimum(indptr[start:stop][None, :] + pos, max(len(indices) - 1, 0))
+    own = np.arange(start, stop)[None, :]
+    table = np.where(pos < count[None, :], indices[at], own) if len(indices) else own[:0]
+    d = vertices[table] - vertices[start:stop][None]  # (r, m, 3), zero where padded
+    u = np.einsum("rmk,mk->rm", d, t1[start:stop])
+    v = np.einsum("rmk,mk->rm", d, t2[start:stop])
+    h = np.einsum("rmk,mk->rm", d, normals[start:stop])
+    # scale each vertex's coordinates by its neighbourhood size for conditioning
+    scale = np.sqrt((u * u + v * v).sum(axis=0))
+    scale = np.where(scale > 0, scale / np.sqrt(np.maximum(count, 1)), 1.0)
+    inv = 1.0 / scale
+    us, vs, hs = u * inv, v * inv, h * inv
+    # the normal equations are sums over the neighbours of products of monomials u^a v^b:
+    # the moments sum u^a v^b (a, b <= 6) and the sums h u^a v^b (a, b <= 3)
+    pu = np.empty((7, r, m))
+    pv = np.empty((7, r, m))
+    pu[0] = pv[0] = 1.0
+    for k in range(1, 7):
+        np.multiply(pu[k - 1], us, out=pu[k])
+        np.multiply(pv[k - 1], vs, out=pv[k])
+    moment = np.einsum("arm,brm->abm", pu, pv, optimize=True)  # (7, 7, m)
+    ata = np.ascontiguousarray(moment[_PAIR_A, _PAIR_B].transpose(2, 0, 1))  # (m, 9, 9)
+    hmoment = np.einsum("arm,brm->abm", pu[:4] * hs, pv[:4], optimize=True)  # (4, 4, m)
+    atb = np.ascontiguousarray(hmoment[_EXP_A, _EXP_B].T)  # (m, 9)
     few = count < 12
     ata[few, 5:, :] = 0.0
     ata[few, :, 5:] = 0.0
@@ -354,7 +355,7 @@ def vertex_curvature(target: TargetSurface) -> Curvature:
         return np.where(ok[:, None], vec / np.where(norm > 0, norm, 1.0), fallback)
 
     dir1 = direction(k1, t1)
-    dir2 = np.cross(normals, dir1)
+    dir2 = cross(normals, dir1)
     # keep dir2 the k2 direction exactly orthogonal to dir1 in the tangent plane
     saddle = (k1 > 0) & (k2 < 0) & ~(np.isfinite(gauss_patch) & ~(gauss_patch < 0))
     asym = np.full((n, 2, 3), np.nan)

@@ -63,6 +63,7 @@ from wirecut.geometry.curvature import Curvature, vertex_curvature
 from wirecut.geometry.frames import plan_basis, to_plan
 from wirecut.geometry.mesh import TargetSurface
 from wirecut.geometry.occlusion import occluded_vertices
+from wirecut.geometry.vectors import cross
 from wirecut.workers import background
 
 __all__ = [
@@ -375,7 +376,7 @@ def _turn_onto_asymptote(
     with np.errstate(divide="ignore", invalid="ignore"):
         eps = np.where(np.abs(slope) > 1e-12, 2.0 * alpha / slope, 0.0)
     eps = np.clip(eps, -0.05, 0.05)
-    side = np.cross(n, dirs)
+    side = cross(n, dirs)
     out = np.cos(eps)[:, None] * dirs + np.sin(eps)[:, None] * side
     return out / np.linalg.norm(out, axis=1, keepdims=True)
 

@@ -34,6 +34,7 @@ from scipy.sparse import csgraph
 from wirecut.config import JobProfile, MoldSide, Units
 from wirecut.errors import MeshError
 from wirecut.findings import Finding, Severity
+from wirecut.geometry.vectors import cross
 
 __all__ = [
     "TargetSurface",
@@ -113,8 +114,7 @@ class TargetSurface:
     @cached_property
     def face_areas(self) -> np.ndarray:
         """(m,) float, mm^2: area of each face."""
-        tri = self.vertices[self.faces]
-        return 0.5 * np.linalg.norm(np.cross(tri[:, 1] - tri[:, 0], tri[:, 2] - tri[:, 0]), axis=1)
+        return 0.5 * np.linalg.norm(cross(*_face_edges(self.vertices, self.faces)), axis=1)
 
     @property
     def area_mm2(self) -> float:
@@ -148,10 +148,10 @@ class TargetSurface:
 
     @cached_property
     def mean_edge_mm(self) -> float:
-        """Mean edge length, mm."""
-        tri = self.vertices[self.faces]
-        e = np.linalg.norm(tri - np.roll(tri, 1, axis=1), axis=2)
-        return float(e.mean())
+        """Mean edge length, mm (each face's three edges)."""
+        e01, e02 = _face_edges(self.vertices, self.faces)
+        total = sum(float(np.linalg.norm(e, axis=1).sum()) for e in (e01, e02, e02 - e01))
+        return total / (3 * len(self.faces))
 
     @cached_property
     def trimesh(self):
@@ -168,6 +168,13 @@ def waste_direction(up: np.ndarray, side: MoldSide) -> np.ndarray:
     u = np.asarray(up, float)
     u = u / np.linalg.norm(u)
     return u if MoldSide(side) is MoldSide.BELOW else -u
+
+
+def _face_edges(vertices: np.ndarray, faces: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """(m, 3), (m, 3) mm: each face's edges from its first corner, ``v1 - v0`` and ``v2 - v0``
+    (gathered per corner: one (m, 3, 3) gather and strided slices of it cost twice as much)."""
+    v0 = vertices[faces[:, 0]]
+    return vertices[faces[:, 1]] - v0, vertices[faces[:, 2]] - v0
 
 
 def _scatter_rows(index: np.ndarray, values: np.ndarray, n: int) -> np.ndarray:
@@ -229,8 +236,7 @@ def _orient_consistently(faces: np.ndarray, n_vertices: int) -> tuple[np.ndarray
     :func:`edge_use` of the re-wound faces.
     """
     m = len(faces)
-    directed = np.stack([faces, np.roll(faces, -1, axis=1)], axis=2).reshape(-1, 2)
-    forward = directed[:, 0] < directed[:, 1]
+    forward = (faces < np.roll(faces, -1, axis=1)).reshape(-1)
     edges, counts, inverse = edge_use(faces, n_vertices)
     face_of = np.repeat(np.arange(m), 3)
     manifold = counts[inverse] == 2
@@ -239,12 +245,14 @@ def _orient_consistently(faces: np.ndarray, n_vertices: int) -> tuple[np.ndarray
     a, b = idx[0::2], idx[1::2]
     fa, fb = face_of[a], face_of[b]
     same_dir = forward[a] == forward[b]
+    plain = sparse.coo_matrix((np.ones(len(fa)), (fa, fb)), shape=(m, m))
+    n_comp, comp = csgraph.connected_components(plain, directed=False)
+    if not same_dir.any():  # consistent already (most exported meshes): nothing to flip
+        return faces.copy(), comp, (edges, counts, inverse)
     src = np.concatenate([fa, fa + m])
     dst = np.concatenate([np.where(same_dir, fb + m, fb), np.where(same_dir, fb, fb + m)])
     doubled = sparse.coo_matrix((np.ones(len(src)), (src, dst)), shape=(2 * m, 2 * m))
     _, label2 = csgraph.connected_components(doubled, directed=False)
-    plain = sparse.coo_matrix((np.ones(len(fa)), (fa, fb)), shape=(m, m))
-    n_comp, comp = csgraph.connected_components(plain, directed=False)
     first = np.full(n_comp, m, np.int64)
     np.minimum.at(first, comp, np.arange(m))
     flip = label2[np.arange(m)] != label2[first[comp]]
@@ -469,10 +477,9 @@ def _build(
     vertices = vertices[first]
     faces = inv[faces]
     # drop degenerate and duplicate faces
-    tri = vertices[faces]
-    cross = np.cross(tri[:, 1] - tri[:, 0], tri[:, 2] - tri[:, 0])
-    area2 = np.linalg.norm(cross, axis=1)
-    sides = (tri[:, 1] - tri[:, 0], tri[:, 2] - tri[:, 1], tri[:, 0] - tri[:, 2])
+    e01, e02 = _face_edges(vertices, faces)
+    area2 = np.linalg.norm(cross(e01, e02), axis=1)
+    sides = (e01, e02 - e01, e02)
     longest2 = np.max([np.einsum("ij,ij->i", e, e) for e in sides], axis=0)
     repeated = (
         (faces[:, 0] == faces[:, 1]) | (faces[:, 1] == faces[:, 2]) | (faces[:, 0] == faces[:, 2])
@@ -501,29 +508,30 @@ def _build(
     counts = edges_used[1]
     w = waste_direction(job.mold.up, job.mold.side)
     closed = bool((counts == 2).all())
-    tri = vertices[faces]
-    cross = np.cross(tri[:, 1] - tri[:, 0], tri[:, 2] - tri[:, 0])
+    e01, e02 = _face_edges(vertices, faces)
+    doubled = cross(e01, e02)
     if closed:
-        signed_volume = np.einsum("ij,ij->i", tri[:, 0], cross).sum() / 6.0
+        signed_volume = np.einsum("ij,ij->i", vertices[faces[:, 0]], doubled).sum() / 6.0
         if signed_volume < 0:
-            faces, cross = faces[:, ::-1].copy(), -cross
-        normals = cross / np.linalg.norm(cross, axis=1, keepdims=True)
+            faces, doubled = faces[:, ::-1].copy(), -doubled
+        normals = doubled / np.linalg.norm(doubled, axis=1, keepdims=True)
         facing = normals @ w > CLOSED_FACING_THRESHOLD
         if not facing.any():
             raise MeshError(f"{label} is a closed solid with no face looking toward the waste side")
-        faces, normals = faces[facing], normals[facing]
+        faces, normals, doubled = faces[facing], normals[facing], doubled[facing]
         used = np.flatnonzero(np.bincount(faces.ravel(), minlength=len(vertices)))
         remap = np.full(len(vertices), -1, np.int64)
         remap[used] = np.arange(len(used))
         vertices, faces = vertices[used], remap[faces]
     else:
         # per component: flip when the area-weighted mean normal looks away from the waste side
-        score = np.bincount(comp, weights=cross @ w)
+        score = np.bincount(comp, weights=doubled @ w)
         flip = score[comp] < 0
         faces[flip] = faces[flip][:, ::-1]
-        cross[flip] = -cross[flip]
-        normals = cross / np.linalg.norm(cross, axis=1, keepdims=True)
+        doubled[flip] = -doubled[flip]
+        normals = doubled / np.linalg.norm(doubled, axis=1, keepdims=True)
         edges_used = (*edges_used[:2], _rewound(edges_used[2], flip))
+    face_areas = 0.5 * np.linalg.norm(doubled, axis=1)
     target = TargetSurface(
         vertices=vertices,
         faces=faces,
@@ -536,7 +544,9 @@ def _build(
         source_units=unit,
         source=name,
     )
-    if not closed:  # the same faces: hand over the edge table instead of sorting it again
+    # the same faces: hand over what intake measured instead of computing it again
+    target.__dict__["face_areas"] = face_areas
+    if not closed:
         target.__dict__["edge_use"] = edges_used
     if target.area_mm2 <= 0.0:
         raise MeshError(f"{label} has zero total area")

@@ -46,16 +46,23 @@ class _PlanIndex:
         tid = np.flatnonzero(np.abs(det) > 1e-12 * scale**2)
         if tid.size == 0:
             return None
-        grid = PlanGrid.of_boxes(
-            tri[tid].min(axis=1), tri[tid].max(axis=1), tid, plan.min(axis=0), np.ptp(plan, axis=0)
-        )
+        a, b, c = a[tid], b[tid], c[tid]
+        lo_box = np.minimum(np.minimum(a, b), c)
+        hi_box = np.maximum(np.maximum(a, b), c)
+        grid = PlanGrid.of_boxes(lo_box, hi_box, tid, plan.min(axis=0), np.ptp(plan, axis=0))
         return cls(plan, v @ w, f, det, grid)
 
-    def hits(self, points: np.ndarray, chunk: int = 200_000):
-        """Yield (query index (k,), face (k,), height (k,) mm) for every face holding a point."""
+    def hits(self, points: np.ndarray, chunk: int = 200_000, vertex: np.ndarray | None = None):
+        """Yield (query index (k,), face (k,), height (k,) mm) for every face holding a point.
+
+        ``vertex`` (k,) int, if given, names a mesh vertex per point whose own faces are left
+        out before the exact test (a vertex's ray starts on them)."""
         points = np.asarray(points, float)
         f, plan = self.faces, self.plan
         for qi, t in self.grid.candidates(points, chunk):
+            if vertex is not None:
+                other = (f[t] != vertex[qi][:, None]).all(axis=1)
+                qi, t = qi[other], t[other]
             p = points[qi]
             ta, tb, tc = plan[f[t, 0]], plan[f[t, 1]], plan[f[t, 2]]
             d = self.det[t]
@@ -85,9 +92,8 @@ def occluded_vertices(target: TargetSurface) -> np.ndarray:
     if index is None:
         return out
     eps = 1e-6 * max(target.extent_mm, 1e-9)
-    for qi, t, h in index.hits(index.plan):
-        own = (target.faces[t] == qi[:, None]).any(axis=1)
-        hit = ~own & (h > index.height[qi] + eps)
+    for qi, _, h in index.hits(index.plan, vertex=np.arange(len(index.plan))):
+        hit = h > index.height[qi] + eps
         out[np.unique(qi[hit])] = True
     return out
 

@@ -23,6 +23,7 @@ from shapely.geometry import MultiPolygon, Polygon
 from shapely.geometry.base import BaseGeometry
 
 from wirecut.geometry.frames import DirectionFrame, plan_basis
+from wirecut.geometry.vectors import cross
 
 __all__ = [
     "footprint",
@@ -226,7 +227,7 @@ def kept_volume_mm3(
     signed = 0.5 * (d1[:, 0] * d2[:, 1] - d1[:, 1] * d2[:, 0])
     # orientation toward the waste side: the triangle's 3D normal . machine y
     p = v[f]
-    n3 = np.cross(p[:, 1] - p[:, 0], p[:, 2] - p[:, 0])
+    n3 = cross(p[:, 1] - p[:, 0], p[:, 2] - p[:, 0])
     toward = np.sign(n3 @ np.asarray(rotation, float)[1])
     ok = (signed != 0.0) & (toward != 0.0)
     if not np.any(ok):

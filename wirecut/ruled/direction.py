@@ -36,6 +36,7 @@ import numpy as np
 from wirecut.config import JobProfile, MoldSide, ToleranceSpec
 from wirecut.errors import JobError
 from wirecut.geometry.frames import DirectionFrame, rigid, to_plan
+from wirecut.geometry.vectors import cross
 from wirecut.ruled.fit import fit_cut
 from wirecut.ruled.sampling import TargetSamples, sample_target
 from wirecut.workers import pmap
@@ -179,7 +180,7 @@ def _coarse_samples(target: Any, frame: DirectionFrame) -> TargetSamples:
 def target_face_areas(target: Any) -> np.ndarray:
     """Face areas (m,) mm^2 of a TargetSurface-like object."""
     v = np.asarray(target.vertices, float)[np.asarray(target.faces)]
-    return 0.5 * np.linalg.norm(np.cross(v[:, 1] - v[:, 0], v[:, 2] - v[:, 0]), axis=1)
+    return 0.5 * np.linalg.norm(cross(v[:, 1] - v[:, 0], v[:, 2] - v[:, 0]), axis=1)
 
 
 def chord_reach_mm(k_normal: np.ndarray, tolerance_mm: float, no_gouge: bool) -> np.ndarray:

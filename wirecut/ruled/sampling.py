@@ -36,6 +36,7 @@ import shapely
 from wirecut.errors import MeshError
 from wirecut.geometry.frames import apply, to_plan
 from wirecut.geometry.plan_grid import PlanGrid
+from wirecut.geometry.vectors import cross
 
 __all__ = [
     "TargetSamples",
@@ -227,7 +228,7 @@ class _Prepared:
         self.longest = edges.max(axis=1)
         self.median_edge = float(np.median(edges))
         d1, d2 = self.tri[:, 1] - self.tri[:, 0], self.tri[:, 2] - self.tri[:, 0]
-        self.area = 0.5 * np.linalg.norm(np.cross(d1, d2), axis=1)
+        self.area = 0.5 * np.linalg.norm(cross(d1, d2), axis=1)
         self.tri_plan = to_plan(self.tri.reshape(-1, 3), self.up).reshape(-1, 3, 2)
         self.box_lo = self.tri_plan.min(axis=1)
         self.box_hi = self.tri_plan.max(axis=1)
