@@ -13,7 +13,12 @@ from shapes import icosphere, saddle
 from wirecut.config import MoldSide, Units, default_job
 from wirecut.errors import MeshError
 from wirecut.findings import Severity
-from wirecut.geometry.mesh import CLOSED_FACING_THRESHOLD, load_target, target_from_arrays
+from wirecut.geometry.mesh import (
+    CLOSED_FACING_THRESHOLD,
+    edge_use,
+    load_target,
+    target_from_arrays,
+)
 
 JOB = default_job()
 
@@ -287,3 +292,35 @@ def test_edge_use_is_numpys_unique_of_the_edge_keys() -> None:
     assert np.array_equal(edges[:, 0] * n + edges[:, 1], uniq)
     assert np.array_equal(got_counts, counts)
     assert np.array_equal(got_inverse, inverse.ravel())
+
+
+@pytest.mark.parametrize("wound", ["consistent", "away", "soup"])
+def test_intake_hands_over_what_a_fresh_computation_gives(wound):
+    # intake passes its face areas and edge table on to the target; they must equal what the
+    # target would compute from its final faces (the shoelace/cross-product area of each face)
+    v, f = saddle(n=15)
+    f = f.copy()
+    if wound == "away":
+        f = f[:, ::-1]
+    elif wound == "soup":
+        flip = np.random.default_rng(2).random(len(f)) < 0.5
+        f[flip] = f[flip][:, ::-1]
+    target, _ = target_from_arrays(v, f, JOB)
+    tri = target.vertices[target.faces]
+    area = 0.5 * np.linalg.norm(np.cross(tri[:, 1] - tri[:, 0], tri[:, 2] - tri[:, 0]), axis=1)
+    assert np.allclose(target.face_areas, area, rtol=1e-12, atol=0)
+    fresh = edge_use(target.faces, len(target.vertices))
+    for got, want in zip(target.edge_use, fresh, strict=True):
+        assert np.array_equal(got, want)
+    edges = np.linalg.norm(tri - np.roll(tri, 1, axis=1), axis=2)
+    assert target.mean_edge_mm == pytest.approx(edges.mean(), rel=1e-12)
+    assert (target.face_normals[:, 2] > 0).all()
+
+
+def test_closed_solid_keeps_the_areas_of_the_faces_it_keeps():
+    v, f = icosphere(400.0, 3)
+    target, _ = target_from_arrays(v, f, JOB)
+    tri = target.vertices[target.faces]
+    area = 0.5 * np.linalg.norm(np.cross(tri[:, 1] - tri[:, 0], tri[:, 2] - tri[:, 0]), axis=1)
+    assert target.was_closed and len(target.face_areas) == len(target.faces)
+    assert np.allclose(target.face_areas, area, rtol=1e-12, atol=0)
