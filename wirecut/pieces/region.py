@@ -81,7 +81,9 @@ def candidate_edges(faces: np.ndarray, signed_area: np.ndarray) -> np.ndarray:
     return key[first[keep]]
 
 
-def footprint(vertices: np.ndarray, faces: np.ndarray, up: np.ndarray) -> BaseGeometry:
+def footprint(
+    vertices: np.ndarray, faces: np.ndarray, up: np.ndarray, tree: shapely.STRtree | None = None
+) -> BaseGeometry:
     """The target's plan-view footprint: union of its projected triangles.
 
     Parameters
@@ -90,6 +92,9 @@ def footprint(vertices: np.ndarray, faces: np.ndarray, up: np.ndarray) -> BaseGe
     faces : (m, 3) int
     up : (3,) float
         The part frame's up (the plan is perpendicular to it).
+    tree : shapely.STRtree, optional
+        A tree of every face's plan triangle, in face order, when the caller has one (building
+        a million shapely triangles is most of this function's time).
 
     Returns
     -------
@@ -115,9 +120,12 @@ def footprint(vertices: np.ndarray, faces: np.ndarray, up: np.ndarray) -> BaseGe
         return Polygon()
     probes = shapely.point_on_surface(cells)
     good = signed != 0.0
-    polys = shapely.polygons(tri[good])
-    tree = shapely.STRtree(polys)
-    hit = tree.query(probes, predicate="intersects")
+    if tree is None:
+        tree = shapely.STRtree(shapely.polygons(tri[good]))
+        hit = tree.query(probes, predicate="intersects")
+    else:  # every face is in the caller's tree: keep the hits on faces with a plan area
+        hit = tree.query(probes, predicate="intersects")
+        hit = hit[:, good[hit[1]]]
     inside = np.zeros(len(cells), bool)
     inside[np.unique(hit[0])] = True
     out = shapely.union_all(cells[inside])
@@ -196,6 +204,7 @@ def kept_volume_mm3(
     rotation: np.ndarray,
     base_y: float,
     region: BaseGeometry,
+    polygons: np.ndarray | None = None,
 ) -> float:
     """Foam volume (mm^3) under the target surface down to the base plane, inside ``region``.
 
@@ -215,6 +224,8 @@ def kept_volume_mm3(
     rotation : (3, 3) float, part -> machine rotation
     base_y : float, mm, rotated machine frame
     region : shapely geometry, mm, part plan view
+    polygons : (m,) shapely Polygons, optional
+        The faces' plan triangles when the caller has them already.
     """
     v = np.asarray(vertices, float)
     f = np.asarray(faces, int)
@@ -234,7 +245,7 @@ def kept_volume_mm3(
         return 0.0
     idx = np.flatnonzero(ok)
     area_all = np.abs(signed)
-    polys = shapely.polygons(tri[idx])
+    polys = shapely.polygons(tri[idx]) if polygons is None else np.asarray(polygons)[idx]
     shapely.prepare(region)
     inside = shapely.contains(region, polys)
     touch = shapely.intersects(region, polys) & ~inside

@@ -428,11 +428,13 @@ class _Surface:
         # machine y of every vertex before placement: the same for every horizontal wire
         self.h = self.vertices @ self.rotation[1]
         self.base_y = float(self.h.min()) - job.mold.base_mm
-        self.fp = footprint(self.vertices, self.faces, self.up)
         e1, e2, _ = plan_basis(self.up)
         uv = np.column_stack([self.vertices @ e1, self.vertices @ e2])
         tri = uv[self.faces]
-        self.tree = shapely.STRtree(shapely.polygons(tri))
+        # every face's plan triangle, once: the tree, the footprint and the kept foam share them
+        self.polygons = shapely.polygons(tri)
+        self.tree = shapely.STRtree(self.polygons)
+        self.fp = footprint(self.vertices, self.faces, self.up, tree=self.tree)
         edges = np.linalg.norm(tri - np.roll(tri, 1, axis=1), axis=2)
         self.edge_mm = float(np.median(edges)) if len(edges) else 1.0
 
@@ -453,8 +455,9 @@ class _Surface:
         if len(idx) == 0:
             return 0.0
         return kept_volume_mm3(
-            self.vertices, self.faces[idx], self.up, self.rotation, self.base_y, region
-        )
+            self.vertices, self.faces[idx], self.up, self.rotation, self.base_y, region,
+            polygons=self.polygons[idx],
+        )  # fmt: skip
 
 
 def _place(

@@ -230,9 +230,10 @@ class _Prepared:
         d1, d2 = self.tri[:, 1] - self.tri[:, 0], self.tri[:, 2] - self.tri[:, 0]
         self.area = 0.5 * np.linalg.norm(cross(d1, d2), axis=1)
         self.tri_plan = to_plan(self.tri.reshape(-1, 3), self.up).reshape(-1, 3, 2)
-        self.box_lo = self.tri_plan.min(axis=1)
-        self.box_hi = self.tri_plan.max(axis=1)
         a, b, c = self.tri_plan[:, 0], self.tri_plan[:, 1], self.tri_plan[:, 2]
+        # corner by corner: a reduction over the middle axis of (m, 3, 2) is several times slower
+        self.box_lo = np.minimum(np.minimum(a, b), c)
+        self.box_hi = np.maximum(np.maximum(a, b), c)
         self.det = (b[:, 0] - a[:, 0]) * (c[:, 1] - a[:, 1]) - (b[:, 1] - a[:, 1]) * (
             c[:, 0] - a[:, 0]
         )
