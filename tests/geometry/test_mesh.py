@@ -324,3 +324,46 @@ def test_closed_solid_keeps_the_areas_of_the_faces_it_keeps():
     area = 0.5 * np.linalg.norm(np.cross(tri[:, 1] - tri[:, 0], tri[:, 2] - tri[:, 0]), axis=1)
     assert target.was_closed and len(target.face_areas) == len(target.faces)
     assert np.allclose(target.face_areas, area, rtol=1e-12, atol=0)
+
+
+def _binary_stl(path, mesh, header=b"wirecut test"):
+    mesh.export(path)  # trimesh writes binary STL
+    raw = bytearray(path.read_bytes())
+    raw[:80] = header.ljust(80, b" ")
+    path.write_bytes(bytes(raw))
+    return path
+
+
+@pytest.mark.parametrize("header", [b"wirecut test", b"solid looks like ascii but is binary"])
+def test_binary_stl_read_as_trimesh_reads_it(tmp_path, header):
+    # trimesh's STL loader is the independent reference for the binary layout
+    mesh = _saddle_mesh()
+    path = _binary_stl(tmp_path / "part.stl", mesh, header)
+    ours = load_target(path, JOB)[0]
+    ref = trimesh.load(str(path), process=False)
+    theirs = target_from_arrays(ref.vertices, ref.faces, JOB)[0]
+    assert np.array_equal(ours.vertices, theirs.vertices)
+    assert np.array_equal(ours.faces, theirs.faces)
+
+
+def test_ascii_stl_still_read(tmp_path):
+    mesh = _saddle_mesh()
+    path = tmp_path / "part.stl"
+    path.write_text(trimesh.exchange.stl.export_stl_ascii(mesh))
+    target, _ = load_target(path, JOB)
+    assert target.area_mm2 == pytest.approx(mesh.area, rel=1e-6)
+
+
+@pytest.mark.parametrize("cut", [1, 49, 51])
+def test_truncated_binary_stl_is_refused(tmp_path, cut):
+    path = _binary_stl(tmp_path / "part.stl", _saddle_mesh())
+    path.write_bytes(path.read_bytes()[:-cut])
+    with pytest.raises(MeshError, match="part.stl"):
+        load_target(path, JOB)
+
+
+def test_binary_stl_without_triangles_is_refused(tmp_path):
+    path = tmp_path / "empty.stl"
+    path.write_bytes(b" " * 80 + (0).to_bytes(4, "little"))
+    with pytest.raises(MeshError, match="empty.stl"):
+        load_target(path, JOB)
