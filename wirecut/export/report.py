@@ -112,7 +112,8 @@ class ReportData:
     safety : tuple of str
         Safety cautions shown in the summary.
     viewer_max_faces : int
-        The 3D view shows at most this many triangles (every k-th face beyond it).
+        The 3D view shows at most this many triangles (a coarser copy by vertex clustering
+        beyond it, :mod:`wirecut.export.view_mesh`).
     """
 
     plan_json: dict
@@ -259,18 +260,18 @@ def _svg_paths(title: str, curves: list[tuple[np.ndarray, str, str]], box_xy=Non
 
 
 def _viewer_json(data: ReportData) -> str:
-    v = np.asarray(data.target_vertices, float).reshape(-1, 3)
-    f = np.asarray(data.target_faces, np.int64).reshape(-1, 3)
-    dev = np.asarray(data.target_deviation, float).reshape(-1)
-    if len(f) > data.viewer_max_faces:
-        f = f[:: int(math.ceil(len(f) / data.viewer_max_faces))]
+    from wirecut.export.view_mesh import coarsened
+
+    v, f, dev = coarsened(
+        data.target_vertices, data.target_faces, data.target_deviation, data.viewer_max_faces
+    )
     face_dev = dev[f].mean(axis=1) if len(f) else np.zeros(0)
     colours = [
         f"#{r:02x}{g:02x}{b:02x}" for r, g, b, _ in deviation_colors(face_dev, data.tolerance_mm)
     ]
     doc = {
-        "v": [round(float(x), 1) for x in v.ravel()],
-        "f": [int(i) for i in f.ravel()],
+        "v": [round(x, 1) for x in v.ravel().tolist()],
+        "f": f.ravel().tolist(),
         "c": colours,
     }
     # "</" cannot end the script element early: JSON may escape the slash
