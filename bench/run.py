@@ -5,11 +5,11 @@
 Speed: ``check``, ``plan`` and ``simulate`` are run as fresh processes on generated doubly
 curved panels of 10k, 100k and 1M triangles; wall time and peak resident memory of each, and
 the ratio to a floor measured in the same run (start Python, import trimesh and scipy, load the
-mesh, one KD-tree query over it). Accuracy: per demo piece, the deviation ``plan`` predicts,
-the deviation ``simulate`` measures on the written program, and a brute-force dense
-measurement (trimesh closest points on the replayed surface). Quality: pieces against the lower
-bound from the wire reach, blocks against the volume bound, machine time against the path
-length at cut speed.
+mesh, one KD-tree query over it); the floor and ``check`` take the best of two runs. Accuracy:
+per demo piece, the deviation ``plan`` predicts, the deviation ``simulate`` measures on the
+written program, and a brute-force dense measurement (trimesh closest points on the replayed
+surface). Quality: pieces against the lower bound from the wire reach, blocks against the
+volume bound, machine time against the path length at cut speed.
 """
 
 from __future__ import annotations
@@ -73,6 +73,18 @@ def timed(cmd: list[str], timeout: float = 900.0) -> tuple[float, float, int]:
     return wall, usage.ru_maxrss / 1024.0, proc.returncode
 
 
+def best_of(runs: int, cmd: list[str]) -> tuple[float, float, int]:
+    """:func:`timed` ``runs`` times: the shortest wall time, the largest peak, the last exit.
+
+    The machine's speed drifts between runs (a 1M floor has read 1.8 and 2.8 s minutes
+    apart), so the floor and ``check`` take the best of two; the ratio compares like with
+    like."""
+    results = [timed(cmd) for _ in range(runs)]
+    return (
+        min(r[0] for r in results), max(r[1] for r in results), results[-1][2]
+    )  # fmt: skip
+
+
 def table(head: list[str], rows: list[list]) -> str:
     out = ["| " + " | ".join(head) + " |", "|" + "---|" * len(head)]
     for r in rows:
@@ -84,9 +96,9 @@ def speed(sizes: list[int], plan_sizes: list[int], work: Path) -> str:
     rows = []
     for n in sizes:
         mesh = panel(n, work / f"panel_{n}.stl")
-        f_wall, f_mem, _ = timed([PY, "-c", FLOOR, str(mesh)])
-        c_wall, c_mem, c_code = timed(
-            [PY, "-m", "wirecut.cli", "check", str(mesh), "--json", str(work / f"c{n}.json")]
+        f_wall, f_mem, _ = best_of(2, [PY, "-c", FLOOR, str(mesh)])
+        c_wall, c_mem, c_code = best_of(
+            2, [PY, "-m", "wirecut.cli", "check", str(mesh), "--json", str(work / f"c{n}.json")]
         )
         out = work / f"plan_{n}"
         p_wall = p_mem = s_wall = s_mem = float("nan")
