@@ -483,7 +483,11 @@ def _build(
     label = f"mesh file {name}" if name != "arrays" else "mesh arrays"
     if len(vertices) == 0:
         raise MeshError(f"{label} has no vertices")
-    if not np.isfinite(vertices).all():
+    # per column: a reduction along axis 0 of an (n, 3) array walks it with a stride; a NaN or
+    # an infinity anywhere makes its column's extremes non-finite, so they also check the values
+    lo = np.array([vertices[:, j].min() for j in range(3)])
+    hi = np.array([vertices[:, j].max() for j in range(3)])
+    if not (np.isfinite(lo).all() and np.isfinite(hi).all()):
         bad = int((~np.isfinite(vertices).all(axis=1)).sum())
         raise MeshError(f"{label} has {bad} vertices with NaN or infinite coordinates")
     if len(faces) == 0:
@@ -491,9 +495,9 @@ def _build(
     if faces.min() < 0 or faces.max() >= len(vertices):
         raise MeshError(f"{label} has face indices outside 0..{len(vertices) - 1}")
     unit = Units.MM if units is None else Units(units)
-    # per column: a reduction along axis 0 of an (n, 3) array walks it with a stride
-    raw_diag = float(np.linalg.norm([np.ptp(vertices[:, j]) for j in range(3)]))
-    vertices = vertices * unit.to_mm
+    raw_diag = float(np.linalg.norm(hi - lo))
+    if unit.to_mm != 1.0:
+        vertices = vertices * unit.to_mm
     diag = raw_diag * unit.to_mm
     if diag == 0.0:
         raise MeshError(f"{label} has zero total area (all vertices coincide)")
