@@ -438,13 +438,15 @@ class _Surface:
         edges = np.linalg.norm(tri - np.roll(tri, 1, axis=1), axis=2)
         self.edge_mm = float(np.median(edges)) if len(edges) else 1.0
 
-    def faces_in(self, region: Any) -> np.ndarray:
-        """Indices of the faces whose plan triangle meets ``region``."""
-        return np.unique(self.tree.query(region, predicate="intersects"))
+    def faces_in(self, region: Any, ordered: bool = True) -> np.ndarray:
+        """Indices of the faces whose plan triangle meets ``region`` (each once: a tree query
+        with one geometry gives each face once), ascending unless ``ordered`` is False."""
+        idx = self.tree.query(region, predicate="intersects")
+        return np.sort(idx) if ordered else idx
 
     def top(self, region: Any) -> float:
         """Highest machine y (before placement) of the faces over ``region``, mm."""
-        idx = self.faces_in(region)
+        idx = self.faces_in(region, ordered=False)  # a maximum needs no order
         if len(idx) == 0:
             return self.base_y
         return float(self.h[self.faces[idx]].max())
