@@ -6,9 +6,9 @@ counter-mold kept above it).
 
 Intake steps, in order:
 
-1. read the file through trimesh (STL ASCII and binary, OBJ, PLY, OFF, GLB; a GLB scene is
-   concatenated into one mesh); refuse anything that is not a triangle mesh with
-   :class:`~wirecut.errors.MeshError`, naming the file and the problem in one line;
+1. read the file (binary STL directly with numpy; ASCII STL, OBJ, PLY, OFF and GLB through
+   trimesh, a GLB scene concatenated into one mesh); refuse anything that is not a triangle
+   mesh with :class:`~wirecut.errors.MeshError`, naming the file and the problem in one line;
 2. convert units (``Units.to_mm``) and warn when the size looks like the wrong unit;
 3. merge duplicate vertices (coordinates equal after rounding to 1e-9 of the bounding-box
    diagonal), drop degenerate faces (a repeated vertex index, zero area, collinear corners:
@@ -281,8 +281,8 @@ def _read_binary_stl(path: Path, size: int) -> tuple[np.ndarray, np.ndarray] | N
     A binary STL is an 80-byte header, a little-endian uint32 triangle count m and m records
     of 50 bytes; a file whose size is not ``84 + 50 m`` is left to trimesh (ASCII STL, or a
     truncated file that trimesh refuses). The corners come as trimesh's loader gives them,
-    unmerged; reading them here spares a plain check trimesh's import (about 0.25 s) and
-    half of its reading time (docs/design-choices.md).
+    unmerged; reading them here spares the import of trimesh (about 0.25 s) and half of its
+    reading time (docs/design-choices.md).
     """
     if size < 84:
         return None
