@@ -44,6 +44,29 @@ def test_mesh_intake_raises_only_mesh_errors(tmp_path, header, body, suffix):
         assert len(target.faces) > 0 and np.isfinite(target.vertices).all()
 
 
+@settings(
+    max_examples=60, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture]
+)
+@given(count=st.integers(0, 6), data=st.data())
+@example(count=1, data=None)
+def test_binary_stl_records_raise_only_mesh_errors(tmp_path, count, data):
+    # files laid out as binary STL (84 + 50 m bytes) whatever their record bytes hold: NaN,
+    # infinities, repeated or collinear corners; numpy's reader sees every one of them
+    body = (
+        bytes(50 * count)
+        if data is None
+        else data.draw(st.binary(min_size=50 * count, max_size=50 * count))
+    )
+    p = tmp_path / "fuzz.stl"
+    p.write_bytes(b"\0" * 80 + count.to_bytes(4, "little") + body)
+    try:
+        target, _ = load_target(p, JOB)
+    except MeshError as exc:
+        assert "\n" not in str(exc)
+    else:
+        assert len(target.faces) > 0 and np.isfinite(target.vertices).all()
+
+
 @settings(max_examples=60, deadline=None)
 @given(
     verts=st.lists(

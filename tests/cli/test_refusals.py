@@ -134,6 +134,21 @@ def test_bad_coordinates_print_one_line_in_a_real_run(tmp_path, name):
     _assert_refused(proc.returncode, proc.stderr, name.split(".")[0])
 
 
+def test_signalling_nan_in_a_binary_stl_prints_one_line(tmp_path):
+    # a binary STL read by numpy: widening a float32 signalling NaN (0x7fa00000, IEEE 754)
+    # raises the invalid flag, which numpy would print as a warning beside the refusal
+    import struct
+
+    corner = struct.pack("<I", 0x7FA00000) * 3
+    record = bytes(12) + corner * 3 + bytes(2)
+    mesh = _write(tmp_path, "snan.stl", bytes(80) + struct.pack("<I", 1) + record)
+    proc = subprocess.run(
+        [sys.executable, "-m", "wirecut.cli", "check", str(mesh)],
+        capture_output=True, text=True, cwd=tmp_path,
+    )  # fmt: skip
+    _assert_refused(proc.returncode, proc.stderr, "NaN")
+
+
 def test_missing_file_and_folder(tmp_path, capsys):
     code, err = _run(["check", tmp_path / "nope.stl"], capsys)
     _assert_refused(code, err, "nope.stl")

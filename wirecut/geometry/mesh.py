@@ -298,7 +298,8 @@ def _read_binary_stl(path: Path, size: int) -> tuple[np.ndarray, np.ndarray] | N
         raise MeshError(f"mesh file {name} cannot be read: {exc.__class__.__name__}") from None
     if len(records) != count:
         return None
-    vertices = records["corners"].reshape(-1, 3).astype(float)
+    with np.errstate(invalid="ignore"):  # a signalling NaN would warn as it is widened
+        vertices = records["corners"].reshape(-1, 3).astype(float)
     return vertices, np.arange(3 * count, dtype=np.int64).reshape(-1, 3)
 
 
