@@ -299,7 +299,8 @@ def _read_binary_stl(path: Path, size: int) -> tuple[np.ndarray, np.ndarray] | N
     if len(records) != count:
         return None
     with np.errstate(invalid="ignore"):  # a signalling NaN would warn as it is widened
-        vertices = records["corners"].reshape(-1, 3).astype(float)
+        # one pass from the records' strided field to contiguous float64 rows
+        vertices = np.array(records["corners"], dtype=float).reshape(-1, 3)
     return vertices, np.arange(3 * count, dtype=np.int64).reshape(-1, 3)
 
 
