@@ -64,6 +64,9 @@ __all__ = [
 #: ``tolerance.lag_share`` is kept for the lag too (see :func:`fit_budget`).
 COARSE_ACCEPT = 0.95
 
+#: Faces tested exactly per round when a block's top is looked for (highest first).
+_TOP_BATCH = 256
+
 
 def fit_budget(job: JobProfile) -> float:
     """Share of the tolerance a strip's coarse fit may use: ``COARSE_ACCEPT``, less the lag's
@@ -427,6 +430,7 @@ class _Surface:
         self.rotation = np.asarray(rotation, float)
         # machine y of every vertex before placement: the same for every horizontal wire
         self.h = self.vertices @ self.rotation[1]
+        self.face_top = self.h[self.faces].max(axis=1) if len(self.faces) else np.zeros(0)
         self.base_y = float(self.h.min()) - job.mold.base_mm
         e1, e2, _ = plan_basis(self.up)
         uv = np.column_stack([self.vertices @ e1, self.vertices @ e2])
@@ -445,11 +449,22 @@ class _Surface:
         return np.sort(idx) if ordered else idx
 
     def top(self, region: Any) -> float:
-        """Highest machine y (before placement) of the faces over ``region``, mm."""
-        idx = self.faces_in(region, ordered=False)  # a maximum needs no order
-        if len(idx) == 0:
+        """Highest machine y (before placement) of the faces over ``region``, mm.
+
+        Only the highest face that meets the region matters: the faces whose boxes meet the
+        region's are tested exactly from the highest down, a batch at a time, and the first
+        batch holding a meeting face gives the answer (the same as testing them all)."""
+        box = self.tree.query(region)  # boxes only: no exact test yet
+        if len(box) == 0:
             return self.base_y
-        return float(self.h[self.faces[idx]].max())
+        order = box[np.argsort(-self.face_top[box], kind="stable")]
+        shapely.prepare(region)
+        for start in range(0, len(order), _TOP_BATCH):
+            batch = order[start : start + _TOP_BATCH]
+            meets = shapely.intersects(region, self.polygons[batch])
+            if meets.any():
+                return float(self.face_top[batch[meets]].max())
+        return self.base_y
 
     def kept(self, region: Any) -> float:
         """Foam under the surface down to the base plane inside ``region``, mm^3."""

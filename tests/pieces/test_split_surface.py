@@ -1,0 +1,43 @@
+"""The split's prepared surface: a block's top and kept foam against brute force."""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+import shapely
+from shapely.geometry import Polygon
+from shapes_pieces import height_target, quick_job
+
+from wirecut.geometry.frames import DirectionFrame
+from wirecut.pieces.split import _Surface
+
+UP = np.array([0.0, 0.0, 1.0])
+
+
+@pytest.fixture(scope="module")
+def surface():
+    # a wavy height field, 600 x 400 mm on a 10 mm grid (by construction)
+    def z(x, y):
+        return 80.0 + 30.0 * np.sin(x / 70.0) * np.cos(y / 50.0)
+
+    target = height_target(np.linspace(0, 600, 61), np.linspace(0, 400, 41), z)
+    frame = DirectionFrame.from_angle(math.radians(30.0), UP, "below")
+    return _Surface(target, quick_job(), frame.rotation)
+
+
+REGIONS = [
+    Polygon([(10, 10), (200, 30), (180, 390), (20, 300)]),
+    Polygon([(300, 50), (590, 50), (590, 120), (300, 120)]),
+    shapely.box(250.0, 150.0, 251.0, 151.0),  # smaller than one triangle
+    Polygon([(0, 0), (600, 400), (590, 400)]),  # a thin diagonal sliver
+    shapely.box(700.0, 700.0, 800.0, 800.0),  # off the surface
+]
+
+
+@pytest.mark.parametrize("region", REGIONS)
+def test_top_is_the_highest_face_that_meets_the_region(surface, region):
+    meets = shapely.intersects(region, surface.polygons)
+    want = float(surface.h[surface.faces[meets]].max()) if meets.any() else surface.base_y
+    assert surface.top(region) == want
