@@ -11,6 +11,7 @@ from shapely.geometry import Polygon
 from shapes_pieces import height_target, quick_job
 
 from wirecut.geometry.frames import DirectionFrame
+from wirecut.pieces.region import kept_volume_mm3
 from wirecut.pieces.split import _Surface
 
 UP = np.array([0.0, 0.0, 1.0])
@@ -41,3 +42,11 @@ def test_top_is_the_highest_face_that_meets_the_region(surface, region):
     meets = shapely.intersects(region, surface.polygons)
     want = float(surface.h[surface.faces[meets]].max()) if meets.any() else surface.base_y
     assert surface.top(region) == want
+
+
+@pytest.mark.parametrize("region", REGIONS)
+def test_kept_foam_equals_the_volume_over_every_face(surface, region):
+    every = kept_volume_mm3(
+        surface.vertices, surface.faces, surface.up, surface.rotation, surface.base_y, region
+    )
+    assert surface.kept(region) == pytest.approx(every, rel=1e-12, abs=1e-6)

@@ -442,12 +442,6 @@ class _Surface:
         edges = np.linalg.norm(tri - np.roll(tri, 1, axis=1), axis=2)
         self.edge_mm = float(np.median(edges)) if len(edges) else 1.0
 
-    def faces_in(self, region: Any, ordered: bool = True) -> np.ndarray:
-        """Indices of the faces whose plan triangle meets ``region`` (each once: a tree query
-        with one geometry gives each face once), ascending unless ``ordered`` is False."""
-        idx = self.tree.query(region, predicate="intersects")
-        return np.sort(idx) if ordered else idx
-
     def top(self, region: Any) -> float:
         """Highest machine y (before placement) of the faces over ``region``, mm.
 
@@ -468,7 +462,9 @@ class _Surface:
 
     def kept(self, region: Any) -> float:
         """Foam under the surface down to the base plane inside ``region``, mm^3."""
-        idx = self.faces_in(region)
+        # the faces whose boxes meet the region's: the volume tests each exactly itself, and
+        # one that does not meet the region adds nothing
+        idx = np.sort(self.tree.query(region))
         if len(idx) == 0:
             return 0.0
         return kept_volume_mm3(
