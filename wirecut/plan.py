@@ -159,7 +159,7 @@ def make_plan(
     from dataclasses import replace
 
     from wirecut.geometry.cuttability import analyse_surface
-    from wirecut.pieces.split import split_pieces
+    from wirecut.pieces.split import prepare_split, split_pieces
     from wirecut.pieces.stock import allocate
     from wirecut.ruled.direction import search_direction
     from wirecut.ruled.sampling import prepare_sampling
@@ -171,7 +171,8 @@ def make_plan(
     progress("analysis", 0, 1)
     analysis = analyse_surface(target, job)
     progress("analysis", 1, 1)
-    direction = search_direction(target, analysis, job)
+    # the split's plan view does not depend on the direction: built while the search runs
+    direction = search_direction(target, analysis, job, meanwhile=lambda: prepare_split(target))
     split = split_pieces(target, analysis, direction, job, progress=progress)
     findings.extend(split.findings)
     allocation = allocate(split.pieces, job)

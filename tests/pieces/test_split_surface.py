@@ -12,7 +12,7 @@ from shapes_pieces import height_target, quick_job
 
 from wirecut.geometry.frames import DirectionFrame
 from wirecut.pieces.region import kept_volume_mm3
-from wirecut.pieces.split import _Surface
+from wirecut.pieces.split import _plan_faces, _Surface, prepare_split
 
 UP = np.array([0.0, 0.0, 1.0])
 
@@ -50,3 +50,13 @@ def test_kept_foam_equals_the_volume_over_every_face(surface, region):
         surface.vertices, surface.faces, surface.up, surface.rotation, surface.base_y, region
     )
     assert surface.kept(region) == pytest.approx(every, rel=1e-12, abs=1e-6)
+
+
+def test_the_plan_view_is_built_once_per_target():
+    target = height_target(np.linspace(0, 100, 11), np.linspace(0, 100, 11), lambda x, y: x * 0)
+    prepare_split(target)
+    first = _plan_faces(target)
+    frame = DirectionFrame.from_angle(0.0, UP, "below")
+    again = _Surface(target, quick_job(), frame.rotation)
+    assert _plan_faces(target) is first and again.tree is first.tree
+    assert again.fp.area == pytest.approx(100.0 * 100.0)

@@ -50,6 +50,15 @@ def test_cylinder_direction_is_its_axis(axis_deg):
     assert len(choice.table) == 6  # the uniform 30-degree set, no seeds without an analysis
 
 
+def test_meanwhile_runs_once_and_changes_nothing():
+    target = _cylinder(30.0)
+    calls = []
+    plain = search_direction(target, None, JobProfile())
+    busy = search_direction(target, None, JobProfile(), meanwhile=lambda: calls.append(1))
+    assert calls == [1]
+    assert busy.best.angle_rad == plain.best.angle_rad and busy.score == plain.score
+
+
 def test_given_candidates_and_analysis_seeds():
     # a hyperbolic paraboloid z = x y / c is ruled along x and along y (standard)
     g = np.linspace(-200.0, 200.0, 41)

@@ -22,6 +22,7 @@ marked infeasible, and its area reported as an attention finding.
 from __future__ import annotations
 
 import math
+import weakref
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from typing import Any
@@ -56,6 +57,7 @@ __all__ = [
     "split_pieces",
     "COARSE_ACCEPT",
     "fit_budget",
+    "prepare_split",
 ]
 
 #: During the bisection a strip passes when its coarse fit stays within this share of the
@@ -419,6 +421,52 @@ def _contends(choice: Any, runner: DirectionFrame) -> bool:
     )
 
 
+@dataclass(frozen=True, eq=False)
+class _PlanFaces:
+    """What the split needs of a target's plan view, whatever the wire direction."""
+
+    polygons: np.ndarray  # (m,) shapely Polygons: every face's plan triangle, mm
+    tree: Any  # shapely.STRtree of ``polygons``
+    footprint: Any  # shapely geometry: the union of the plan triangles
+    edge_mm: float  # median plan edge length, mm
+
+    @classmethod
+    def of(cls, target: Any) -> _PlanFaces:
+        v = np.asarray(target.vertices, float)
+        f = np.asarray(target.faces, np.int64)
+        up = np.asarray(target.up, float)
+        e1, e2, _ = plan_basis(up)
+        tri = np.column_stack([v @ e1, v @ e2])[f]
+        # every face's plan triangle, once: the tree, the footprint and the kept foam share them
+        polygons = shapely.polygons(tri)
+        tree = shapely.STRtree(polygons)
+        fp = footprint(v, f, up, tree=tree)
+        edges = np.linalg.norm(tri - np.roll(tri, 1, axis=1), axis=2)
+        return cls(polygons, tree, fp, float(np.median(edges)) if len(edges) else 1.0)
+
+
+_PLAN_FACES: weakref.WeakKeyDictionary = weakref.WeakKeyDictionary()
+
+
+def _plan_faces(target: Any) -> _PlanFaces:
+    """The cached :class:`_PlanFaces` of a target (afresh for objects that cannot be weakly
+    referenced); the target's arrays are taken as fixed."""
+    try:
+        hit = _PLAN_FACES.get(target)
+    except TypeError:
+        return _PlanFaces.of(target)
+    if hit is None:
+        hit = _PLAN_FACES[target] = _PlanFaces.of(target)
+    return hit
+
+
+def prepare_split(target: Any) -> None:
+    """Build the plan view the split needs (every face's plan triangle, their tree, the
+    footprint) ahead of :func:`split_pieces`: the planner does it while the direction search's
+    workers run, when this process would otherwise wait."""
+    _plan_faces(target)
+
+
 class _Surface:
     """The target prepared once for all strips: plan triangles, heights, a search tree."""
 
@@ -432,15 +480,9 @@ class _Surface:
         self.h = self.vertices @ self.rotation[1]
         self.face_top = self.h[self.faces].max(axis=1) if len(self.faces) else np.zeros(0)
         self.base_y = float(self.h.min()) - job.mold.base_mm
-        e1, e2, _ = plan_basis(self.up)
-        uv = np.column_stack([self.vertices @ e1, self.vertices @ e2])
-        tri = uv[self.faces]
-        # every face's plan triangle, once: the tree, the footprint and the kept foam share them
-        self.polygons = shapely.polygons(tri)
-        self.tree = shapely.STRtree(self.polygons)
-        self.fp = footprint(self.vertices, self.faces, self.up, tree=self.tree)
-        edges = np.linalg.norm(tri - np.roll(tri, 1, axis=1), axis=2)
-        self.edge_mm = float(np.median(edges)) if len(edges) else 1.0
+        plan = _plan_faces(target)
+        self.polygons, self.tree, self.fp = plan.polygons, plan.tree, plan.footprint
+        self.edge_mm = plan.edge_mm
 
     def top(self, region: Any) -> float:
         """Highest machine y (before placement) of the faces over ``region``, mm.

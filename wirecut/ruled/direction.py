@@ -28,6 +28,7 @@ then the smallest max deviation; a direction whose curvature allows strips narro
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from dataclasses import dataclass, field, replace
 from typing import Any
 
@@ -274,7 +275,11 @@ def _score(
 
 
 def search_direction(
-    target: Any, analysis: Any, job: JobProfile, candidates: Any = None
+    target: Any,
+    analysis: Any,
+    job: JobProfile,
+    candidates: Any = None,
+    meanwhile: Callable[[], None] | None = None,
 ) -> DirectionChoice:
     """Pick the horizontal wire direction with the most area within tolerance.
 
@@ -288,6 +293,9 @@ def search_direction(
         Tolerance, policy, machine span, mold up and side.
     candidates : array of float, optional
         Plan angles (rad) to score instead of the uniform 30-degree set (seeds still added).
+    meanwhile : callable () -> None, optional
+        Work for this process while worker processes score the candidates
+        (:func:`wirecut.workers.pmap`).
 
     Returns
     -------
@@ -308,7 +316,7 @@ def search_direction(
         return frame, hint, _score(base.transformed(rel), job, hint)
 
     rows = []
-    results = pmap(scored, [angle for angle, _ in cands])
+    results = pmap(scored, [angle for angle, _ in cands], meanwhile=meanwhile)
     for (_, source), (frame, hint, score) in zip(cands, results, strict=True):
         feasible, worst, strips, pieces = score
         rows.append(
