@@ -234,10 +234,15 @@ class _Prepared:
         # corner by corner: a reduction over the middle axis of (m, 3, 2) is several times slower
         self.box_lo = np.minimum(np.minimum(a, b), c)
         self.box_hi = np.maximum(np.maximum(a, b), c)
+        # the same bounds as contiguous columns, for the box tests of every sampled region
+        self._box_columns = tuple(
+            np.ascontiguousarray(b[:, j]) for b in (self.box_lo, self.box_hi) for j in (0, 1)
+        )
         self.det = (b[:, 0] - a[:, 0]) * (c[:, 1] - a[:, 1]) - (b[:, 1] - a[:, 1]) * (
             c[:, 0] - a[:, 0]
         )
         self._grid: PlanGrid | None = None
+        self.vertices = vertices
         self.faces = faces
         self._edge_use = getattr(target, "edge_use", None)
         self._detail: float | None = None
@@ -285,9 +290,9 @@ class _Prepared:
         """Ascending indices of the faces whose plan bounding box meets the region's."""
         x0, y0, x1, y1 = region.bounds
         pad = 1e-6 * (1.0 + max(abs(x0), abs(y0), abs(x1), abs(y1)))
-        lo, hi = self.box_lo, self.box_hi
-        hit = (hi[:, 0] >= x0 - pad) & (lo[:, 0] <= x1 + pad)
-        hit &= (hi[:, 1] >= y0 - pad) & (lo[:, 1] <= y1 + pad)
+        lo_x, lo_y, hi_x, hi_y = self._box_columns
+        hit = (hi_x >= x0 - pad) & (lo_x <= x1 + pad)
+        hit &= (hi_y >= y0 - pad) & (lo_y <= y1 + pad)
         return np.flatnonzero(hit)
 
 
@@ -318,6 +323,18 @@ def prepare_sampling(target: Any) -> None:
     """Compute once what sampling ``target`` needs (its triangles, plan grid), so that
     worker processes forked afterwards inherit it instead of each building its own."""
     _prepared(target).plan_grid()
+
+
+def _first_seen(ids: np.ndarray, n: int) -> tuple[np.ndarray, np.ndarray]:
+    """``np.unique(ids, return_index=True, return_inverse=True)[1:]`` for indices ``ids``
+    (k,) in ``0..n-1``, through a table of the n values instead of a sort: the first position
+    of each distinct value (values ascending) and each position's rank among them."""
+    at = np.full(n, len(ids), np.int64)
+    np.minimum.at(at, ids, np.arange(len(ids)))
+    values = np.flatnonzero(at < len(ids))
+    rank = np.empty(n, np.int64)
+    rank[values] = np.arange(len(values))
+    return at[values], rank[ids]
 
 
 def _boundary_samples(
@@ -403,7 +420,6 @@ def sample_target(
     # only the faces whose plan bounding box meets the region's are sampled (same samples
     # as sampling every face and clipping, at a cost that follows the region, not the mesh)
     near = np.arange(len(prep.tri)) if region is None else prep.faces_near(region)
-    tri = prep.tri[near]
     area = prep.area[near]
     divisions = np.clip(np.ceil(prep.longest[near] / spacing), 1, MAX_DIVISIONS).astype(int)
 
@@ -415,21 +431,22 @@ def sample_target(
             # each vertex once (at its first corner, in the lattice's corner order a, c, b)
             # carrying a third of each face's area, as merged() would leave the copies
             ids = prep.faces[near[sel]][:, [0, 2, 1]].ravel()
-            _, first, inverse = np.unique(ids, return_index=True, return_inverse=True)
+            first, inverse = _first_seen(ids, len(prep.vertices))
             order = np.argsort(first, kind="stable")
             rank = np.empty_like(order)
             rank[order] = np.arange(len(order))
             corner = first[order]
-            pts_parts.append(tri[sel][:, [0, 2, 1]].reshape(-1, 3)[corner])
+            pts_parts.append(prep.vertices[ids[corner]])  # the corners' own vertices
             w_parts.append(
                 np.bincount(rank[inverse.ravel()], weights=np.repeat(area[sel] / 3.0, 3))
             )
             f_parts.append(sel[corner // 3])
             continue
         bary, share = _lattice(int(n))
-        a = tri[sel, 0][:, None, :]
-        ab = (tri[sel, 1] - tri[sel, 0])[:, None, :]
-        ac = (tri[sel, 2] - tri[sel, 0])[:, None, :]
+        tri = prep.tri[near[sel]]
+        a = tri[:, 0][:, None, :]
+        ab = (tri[:, 1] - tri[:, 0])[:, None, :]
+        ac = (tri[:, 2] - tri[:, 0])[:, None, :]
         p = a + bary[None, :, 0:1] * ab + bary[None, :, 1:2] * ac  # (f, p, 3)
         pts_parts.append(p.reshape(-1, 3))
         w_parts.append((area[sel][:, None] * share[None, :]).reshape(-1))
