@@ -241,13 +241,13 @@ def test_unique_rows_is_numpys_unique(spans) -> None:
     # the vertex merge's own row dedup gives exactly np.unique(axis=0)'s first indices and
     # inverse (numpy is the reference), whether its columns pack into one sort key, two or
     # none
-    from wirecut.geometry.mesh import _unique_rows
+    from wirecut.geometry.mesh import unique_rows
 
     rng = np.random.default_rng(7)
     q = np.column_stack([rng.integers(-s, s, 5000) for s in spans]).astype(np.int64)
     q = np.vstack([q, q[::3]])  # repeated rows
     _, first, inverse = np.unique(q, axis=0, return_index=True, return_inverse=True)
-    f, inv = _unique_rows(q)
+    f, inv = unique_rows(q)
     assert np.array_equal(f, first)
     assert np.array_equal(inv, inverse.ravel())
 

@@ -43,6 +43,7 @@ __all__ = [
     "waste_direction",
     "edge_use",
     "boundary_vertex_mask",
+    "unique_rows",
     "SUPPORTED_SUFFIXES",
     "CLOSED_FACING_THRESHOLD",
     "ABSURD_EXTENT_MM",
@@ -444,7 +445,7 @@ def _packed_columns(q: np.ndarray) -> list[np.ndarray]:
     return keys
 
 
-def _unique_rows(q: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+def unique_rows(q: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """``np.unique(q, axis=0, return_index=True, return_inverse=True)`` without the unique
     rows themselves: (index of each unique row's first occurrence, in lexicographic row
     order; the unique row of every input row). One stable lexsort instead of the structured
@@ -472,7 +473,7 @@ def _repeated_faces(faces: np.ndarray, n_vertices: int) -> np.ndarray:
         key = (s[:, 0] * n_vertices + s[:, 1]) * n_vertices + s[:, 2]
         _, first = np.unique(key, return_index=True)
     else:
-        first, _ = _unique_rows(s)
+        first, _ = unique_rows(s)
     rep = np.ones(len(faces), bool)
     rep[first] = False
     return rep
@@ -514,7 +515,7 @@ def _build(
     n_in, m_in = len(vertices), len(faces)
     q = vertices * (1.0 / (diag * 1e-9))
     q = np.rint(q, out=q).astype(np.int64)
-    first, inv = _unique_rows(q)
+    first, inv = unique_rows(q)
     vertices = vertices[first]
     faces = inv[faces]
     # drop degenerate and duplicate faces

@@ -127,17 +127,16 @@ class TargetSamples:
         min-max fit but its size."""
         if len(self) < 2:
             return self
+        from wirecut.geometry.mesh import unique_rows
+
         key = np.round(self.points / 1e-6).astype(np.int64)
-        # stable sort by (x, y, z) keys, then by index: each run of equal keys is one point
-        order = np.lexsort((np.arange(len(key)), key[:, 2], key[:, 1], key[:, 0]))
-        k = key[order]
-        starts = np.r_[True, np.any(k[1:] != k[:-1], axis=1)]
-        if starts.all():
+        # the first copy of each point (lowest index) and each sample's point, by a stable
+        # sort of the (x, y, z) keys; the weights add up in index order within a point
+        first, group = unique_rows(key)
+        if len(first) == len(self):
             return self
-        group = np.cumsum(starts) - 1  # group of each sorted sample
-        first = order[starts]  # first copy of each point (lowest index: stable order)
-        weights = np.bincount(group, weights=self.weights[order], minlength=len(first))
-        seen = np.argsort(first, kind="stable")  # groups in first-seen order
+        weights = np.bincount(group, weights=self.weights, minlength=len(first))
+        seen = np.argsort(first, kind="stable")  # points in first-seen order
         return replace(self.subset(first[seen]), weights=weights[seen])
 
     def thinned(self, cell_mm: float) -> TargetSamples:
