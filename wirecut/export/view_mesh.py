@@ -14,6 +14,8 @@ from __future__ import annotations
 
 import numpy as np
 
+from wirecut.geometry.vectors import cross
+
 __all__ = ["coarsened"]
 
 #: Most cube-size trials: each makes the cubes 1.1 times larger until the faces fit.
@@ -42,7 +44,7 @@ def coarsened(
         return _compact(v, f, val)
     lo = v.min(axis=0)
     tri = v[f]
-    area = 0.5 * np.linalg.norm(np.cross(tri[:, 1] - tri[:, 0], tri[:, 2] - tri[:, 0]), axis=1)
+    area = 0.5 * np.linalg.norm(cross(tri[:, 1] - tri[:, 0], tri[:, 2] - tri[:, 0]), axis=1)
     # a cube of side c holds about c^2 of surface; a mesh has about two triangles per vertex
     cube = max(float(np.sqrt(area.sum() / max(max_faces / 2.0, 1.0))), 1e-9)
     for _ in range(_TRIALS):
