@@ -12,7 +12,7 @@ from shapes_pieces import height_target, quick_job
 
 from wirecut.geometry.frames import DirectionFrame
 from wirecut.pieces.region import kept_volume_mm3
-from wirecut.pieces.split import _plan_faces, _Surface, prepare_split
+from wirecut.pieces.split import _plan_faces, _Surface, prepare_split, split_pieces
 
 UP = np.array([0.0, 0.0, 1.0])
 
@@ -59,4 +59,8 @@ def test_the_plan_view_is_built_once_per_target():
     frame = DirectionFrame.from_angle(0.0, UP, "below")
     again = _Surface(target, quick_job(), frame.rotation)
     assert _plan_faces(target) is first and again.tree is first.tree
+    # split_pieces takes the cached plan view and lets it go (it is not kept beyond the split)
+    frames = [frame]
+    split_pieces(target, None, frames, quick_job())
+    assert _plan_faces(target) is not first
     assert again.fp.area == pytest.approx(100.0 * 100.0)

@@ -671,6 +671,12 @@ def split_pieces(
     if not frames:
         raise ValueError("split_pieces needs at least one wire direction")
     surf = _Surface(target, job, frames[0].rotation)
+    # the split's own copy from here on: the plan view is not kept beyond it (a million
+    # shapely triangles would stay in memory through the programs and the report)
+    try:
+        _PLAN_FACES.pop(target, None)
+    except TypeError:  # an object that cannot be weakly referenced was never cached
+        pass
     if surf.fp.is_empty:
         raise JobError("the target has no plan-view area to cut (every face is vertical)")
     max_w, max_len = split_limits(job)
