@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import numpy as np
+import pytest
 
 from wirecut.export.palette import deviation_cmap, deviation_colors, deviation_norm, worst_raster
 
@@ -56,3 +57,23 @@ def test_isolated_holes_are_filled_but_the_outside_is_not() -> None:
     value, _, extent = worst_raster(xy, np.ones(len(xy)), cells=400)
     assert np.isfinite(value).all()
     assert extent[0] == 0.0 and extent[2] == 0.0 and extent[1] <= 118.0 + 4.0
+
+
+@pytest.mark.parametrize("size", [(70.0, 600.0), (130.0, 600.0), (1000.0, 300.0), (3000.0, 150.0)])
+def test_the_scale_bar_hides_no_sample_and_the_x_axis_has_a_label(size):
+    from wirecut.export.palette import DeviationPicture
+
+    w, h = size
+    rng = np.random.default_rng(4)
+    xy = rng.random((4000, 2)) * [w, h] + [850.0, 600.0]
+    picture = DeviationPicture(0.5, (5.0, 3.6), (0.16, 0.9, 0.15, 0.9), "mm", cells=100)
+    for _ in range(2):  # the second drawing starts from the first one's aspect
+        picture.show(xy, rng.normal(0, 0.2, len(xy)), title="piece")
+        picture.fig.canvas.draw()
+    renderer = picture.fig.canvas.get_renderer()
+    bar = next(a for a in picture.ax.artists if a.__class__.__name__ == "AnchoredSizeBar")
+    box = bar.get_window_extent(renderer)
+    # the data's lowest row in pixels: the bar box stays below it
+    _, lowest = picture.ax.transData.transform((850.0, 600.0))
+    assert box.y1 <= lowest + 0.5
+    assert len(picture.ax.get_xticks()) >= 1

@@ -234,17 +234,27 @@ class DeviationPicture:
                         cx, cy, label, ha="center", va="center", fontsize=9, weight="bold", bbox=box
                     )  # fmt: skip
                 )
-        ax.set_xlim(x0, x1)
-        ax.set_ylim(y0, y1)
-        # as many x ticks as labels of four or five digits fit across the drawn width (the
-        # axes keep the data's aspect, so a narrow piece is drawn narrow)
-        box = ax.get_position()
+        # the axes keep the data's aspect inside the box the layout gives them (the box before
+        # any earlier picture's aspect shrank it): a narrow piece is drawn narrow
+        box = ax.get_position(original=True)
         w_in, h_in = self.fig.get_size_inches()
-        shown = min(box.width * w_in, box.height * h_in * (x1 - x0) / max(y1 - y0, 1e-9))
-        step = _round_up((x1 - x0) / max(int(shown / 0.6), 2))
-        ax.xaxis.set_major_locator(FixedLocator(np.arange(np.ceil(x0 / step), x1 / step + 1e-9)
-                                                * step))  # fmt: skip
-        bar = scale_bar_length(max(x1 - x0, y1 - y0))
+        w_px, h_px = box.width * w_in * self.fig.dpi, box.height * h_in * self.fig.dpi
+        dx, dy = max(x1 - x0, 1e-9), max(y1 - y0, 1e-9)
+        # a band below the data holds the scale bar, so that it never hides a sample
+        band = 0.0
+        for _ in range(4):  # the band's height in mm depends on the scale it changes
+            band = _BAR_BAND_PX / min(w_px / dx, h_px / (dy + band))
+        ax.set_xlim(x0, x1)
+        ax.set_ylim(y0 - band, y1)
+        # as many x ticks as labels of four or five digits fit across the drawn width
+        shown = min(w_px, h_px * dx / (dy + band)) / self.fig.dpi
+        step = _round_up(dx / max(int(shown / 0.6), 1))
+        ticks = np.arange(np.ceil(x0 / step), x1 / step + 1e-9) * step
+        while len(ticks) == 0:  # a narrow piece between two round values: a finer step
+            step = _round_up(step / 2.5)
+            ticks = np.arange(np.ceil(x0 / step), x1 / step + 1e-9) * step
+        ax.xaxis.set_major_locator(FixedLocator(ticks))
+        bar = scale_bar_length(dx)  # it fits across the drawn width
         sizebar = AnchoredSizeBar(
             ax.transData,
             bar,
@@ -252,7 +262,10 @@ class DeviationPicture:
             "lower right",
             frameon=True,
             size_vertical=(x1 - x0) * 0.004,
-            pad=0.4,
+            pad=0.2,
+            borderpad=0.3,
+            sep=2,
+            fontproperties={"size": 8},
         )
         ax.add_artist(sizebar)
         self._drawn.append(sizebar)
@@ -261,6 +274,10 @@ class DeviationPicture:
     def save(self, path) -> None:
         """Write the picture as PNG (no software tag, no time: the same bytes every run)."""
         self.fig.savefig(path, format="png", metadata={"Software": None})
+
+
+#: Height (pixels) of the band kept free under a picture's data for its scale bar.
+_BAR_BAND_PX = 30.0
 
 
 def _round_up(x: float) -> float:
