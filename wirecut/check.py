@@ -139,10 +139,11 @@ def write_check_outputs(
         from wirecut.export.maps import write_curvature_histogram, write_cuttability_map
 
         with output_dir(out) as tmp:
+            # the histogram is drawn while a worker casts the map's rays (a large mesh)
             write_cuttability_map(
-                result.target, result.analysis, tmp / "cuttability.png", result.job.tolerance
-            )
-            write_curvature_histogram(result.analysis, tmp / "curvature.png")
+                result.target, result.analysis, tmp / "cuttability.png", result.job.tolerance,
+                meanwhile=lambda: write_curvature_histogram(result.analysis, tmp / "curvature.png"),
+            )  # fmt: skip
             (tmp / "check.json").write_text(
                 json.dumps(result.to_json(), indent=2, sort_keys=True) + "\n", encoding="utf-8"
             )

@@ -62,3 +62,31 @@ def test_axis_label():
     assert axis_label(np.array([0.0, 1.0, 0.0])) == "part +y"
     assert axis_label(np.array([0.0, 0.0, -1.0])) == "part -z"
     assert axis_label(np.array([0.6, 0.8, 0.0])) == "part (0.60, 0.80, 0.00)"
+
+
+def test_map_rays_in_a_worker_give_the_same_picture(tmp_path, monkeypatch):
+    import wirecut.export.maps as maps
+
+    target, _ = target_from_arrays(*saddle(n=41), JOB)
+    an = analyse_surface(target, JOB)
+    here, there = tmp_path / "here.png", tmp_path / "there.png"
+    write_cuttability_map(target, an, here, JOB.tolerance)
+    monkeypatch.setattr(maps, "_BACKGROUND_FACES", 0)  # fork even for this small mesh
+    calls = []
+    write_cuttability_map(target, an, there, JOB.tolerance, meanwhile=lambda: calls.append(1))
+    assert calls == [1] and here.read_bytes() == there.read_bytes()
+
+
+def test_an_error_meanwhile_reaches_the_caller(tmp_path, monkeypatch):
+    import wirecut.export.maps as maps
+
+    target, _ = target_from_arrays(*saddle(n=21), JOB)
+    an = analyse_surface(target, JOB)
+    monkeypatch.setattr(maps, "_BACKGROUND_FACES", 0)
+
+    def fail():
+        raise OSError("disk full")
+
+    with pytest.raises(OSError, match="disk full"):
+        write_cuttability_map(target, an, tmp_path / "m.png", JOB.tolerance, meanwhile=fail)
+    assert not (tmp_path / "m.png").exists()

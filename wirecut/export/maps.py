@@ -18,6 +18,7 @@ for colour-vision deficiency). Undercut areas are hatched.
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from pathlib import Path
 
 import numpy as np
@@ -27,6 +28,7 @@ from wirecut.geometry.cuttability import DEVELOPABLE, RULED, SYNCLASTIC, Surface
 from wirecut.geometry.frames import plan_basis, to_plan
 from wirecut.geometry.mesh import TargetSurface
 from wirecut.geometry.occlusion import first_hit_faces
+from wirecut.workers import background
 
 __all__ = [
     "CLASS_COLOURS",
@@ -45,6 +47,8 @@ _CLASS_NAMES = {
 }
 _DPI = 110
 _RASTER = 560  # pixels along the longer side of the plan raster of each panel
+# from this many faces the map's rays are cast in a worker process (the fork repays itself)
+_BACKGROUND_FACES = 50_000
 
 
 def scale_bar_length(width_mm: float) -> float:
@@ -122,6 +126,7 @@ def write_cuttability_map(
     analysis: SurfaceAnalysis,
     path_png: str | Path,
     tolerance: float | ToleranceSpec,
+    meanwhile: Callable[[], None] | None = None,
 ) -> Path:
     """Write the plan-view map: classes (left) and wire reach (right), undercut hatched.
 
@@ -135,16 +140,15 @@ def write_cuttability_map(
         Output PNG file.
     tolerance : float or ToleranceSpec
         Surface tolerance (mm) shown in the title (with the policy when a ToleranceSpec).
+    meanwhile : callable () -> None, optional
+        Other work (another picture) for this process while a worker process casts the
+        raster's rays, for a large mesh; called before the map is drawn in any case.
 
     Returns
     -------
     Path
         The file written.
     """
-    from matplotlib.colors import BoundaryNorm, ListedColormap
-    from matplotlib.figure import Figure
-    from matplotlib.patches import Patch
-
     if isinstance(tolerance, ToleranceSpec):
         tol_text = f"tolerance {tolerance.surface_mm:g} mm, {tolerance.policy.value}"
     else:
@@ -161,7 +165,21 @@ def write_cuttability_map(
     xs = lo[0] + (np.arange(nx) + 0.5) * span[0] / nx
     ys = lo[1] + (np.arange(ny) + 0.5) * span[1] / ny
     gx, gy = np.meshgrid(xs, ys)
-    face = first_hit_faces(target, np.column_stack([gx.ravel(), gy.ravel()])).reshape(ny, nx)
+    pixels = np.column_stack([gx.ravel(), gy.ravel()])
+    rays = background(
+        lambda: first_hit_faces(target, pixels), min_size=_BACKGROUND_FACES, size=len(target.faces)
+    )
+    try:
+        from matplotlib.colors import BoundaryNorm, ListedColormap
+        from matplotlib.figure import Figure
+        from matplotlib.patches import Patch
+
+        if meanwhile is not None:
+            meanwhile()
+    except BaseException:
+        rays.wait()  # no worker is left behind
+        raise
+    face = rays.result().reshape(ny, nx)
     empty = face < 0
     fidx = np.where(empty, 0, face)
 
