@@ -71,7 +71,7 @@ def test_map_rays_in_a_worker_give_the_same_picture(tmp_path, monkeypatch):
     an = analyse_surface(target, JOB)
     here, there = tmp_path / "here.png", tmp_path / "there.png"
     write_cuttability_map(target, an, here, JOB.tolerance)
-    monkeypatch.setattr(maps, "_BACKGROUND_FACES", 0)  # fork even for this small mesh
+    monkeypatch.setattr(maps, "FORK_FACES", 0)  # fork even for this small mesh
     calls = []
     write_cuttability_map(target, an, there, JOB.tolerance, meanwhile=lambda: calls.append(1))
     assert calls == [1] and here.read_bytes() == there.read_bytes()
@@ -82,7 +82,7 @@ def test_an_error_meanwhile_reaches_the_caller(tmp_path, monkeypatch):
 
     target, _ = target_from_arrays(*saddle(n=21), JOB)
     an = analyse_surface(target, JOB)
-    monkeypatch.setattr(maps, "_BACKGROUND_FACES", 0)
+    monkeypatch.setattr(maps, "FORK_FACES", 0)
 
     def fail():
         raise OSError("disk full")

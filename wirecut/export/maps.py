@@ -27,7 +27,7 @@ from wirecut.config import ToleranceSpec
 from wirecut.geometry.cuttability import DEVELOPABLE, RULED, SYNCLASTIC, SurfaceAnalysis
 from wirecut.geometry.frames import plan_basis, to_plan
 from wirecut.geometry.mesh import TargetSurface
-from wirecut.geometry.occlusion import first_hit_faces
+from wirecut.geometry.occlusion import FORK_FACES, first_hit_faces
 from wirecut.workers import background
 
 __all__ = [
@@ -47,8 +47,6 @@ _CLASS_NAMES = {
 }
 _DPI = 110
 _RASTER = 560  # pixels along the longer side of the plan raster of each panel
-# from this many faces the map's rays are cast in a worker process (the fork repays itself)
-_BACKGROUND_FACES = 50_000
 
 
 def scale_bar_length(width_mm: float) -> float:
@@ -167,7 +165,7 @@ def write_cuttability_map(
     gx, gy = np.meshgrid(xs, ys)
     pixels = np.column_stack([gx.ravel(), gy.ravel()])
     rays = background(
-        lambda: first_hit_faces(target, pixels), min_size=_BACKGROUND_FACES, size=len(target.faces)
+        lambda: first_hit_faces(target, pixels), min_size=FORK_FACES, size=len(target.faces)
     )
     try:
         from matplotlib.colors import BoundaryNorm, ListedColormap

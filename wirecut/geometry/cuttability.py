@@ -62,7 +62,7 @@ from wirecut.config import JobProfile, Policy
 from wirecut.geometry.curvature import Curvature, vertex_curvature
 from wirecut.geometry.frames import plan_basis, to_plan
 from wirecut.geometry.mesh import TargetSurface
-from wirecut.geometry.occlusion import occluded_vertices
+from wirecut.geometry.occlusion import FORK_FACES, occluded_vertices
 from wirecut.geometry.vectors import cross
 from wirecut.workers import background
 
@@ -83,7 +83,6 @@ MAX_MARCHED = 2000
 _STEPS = 128  # samples per side of a marched line at most
 _BATCH = 128  # marched lines per vectorized batch
 _VERTICAL = 1e-9  # |n . w| below this is a vertical wall, not an undercut
-_BACKGROUND_FACES = 50_000  # from this many faces the undercut rays run beside the curvature
 _BACKGROUND_LINES = 500  # from this many marched lines, half are marched in a worker process
 _BLOCK = 16  # samples per line marched before checking which lines go on
 
@@ -244,7 +243,7 @@ def analyse_surface(target: TargetSurface, job: JobProfile) -> SurfaceAnalysis:
     # the undercut rays do not need the curvature: a large mesh casts them in a worker
     # process while the curvature is fitted here
     occluded = background(
-        lambda: occluded_vertices(target), min_size=_BACKGROUND_FACES, size=len(target.faces)
+        lambda: occluded_vertices(target), min_size=FORK_FACES, size=len(target.faces)
     )
     cu = vertex_curvature(target)
     tol, policy = job.tolerance.surface_mm, job.tolerance.policy

@@ -21,7 +21,11 @@ from wirecut.geometry.frames import to_plan
 from wirecut.geometry.mesh import TargetSurface
 from wirecut.geometry.plan_grid import PlanGrid
 
-__all__ = ["occluded_vertices", "first_hit_faces"]
+__all__ = ["occluded_vertices", "first_hit_faces", "FORK_FACES"]
+
+#: From this many target faces a ray cast repays running in a forked worker process
+#: (:func:`wirecut.workers.background`) beside other work.
+FORK_FACES = 50_000
 
 
 @dataclass(frozen=True, eq=False)

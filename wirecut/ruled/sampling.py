@@ -235,7 +235,7 @@ class _Prepared:
         self.box_hi = np.maximum(np.maximum(a, b), c)
         # the same bounds as contiguous columns, for the box tests of every sampled region
         self._box_columns = tuple(
-            np.ascontiguousarray(b[:, j]) for b in (self.box_lo, self.box_hi) for j in (0, 1)
+            np.ascontiguousarray(box[:, j]) for box in (self.box_lo, self.box_hi) for j in (0, 1)
         )
         self.det = (b[:, 0] - a[:, 0]) * (c[:, 1] - a[:, 1]) - (b[:, 1] - a[:, 1]) * (
             c[:, 0] - a[:, 0]
