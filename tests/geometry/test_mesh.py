@@ -15,6 +15,7 @@ from wirecut.errors import MeshError
 from wirecut.findings import Severity
 from wirecut.geometry.mesh import (
     CLOSED_FACING_THRESHOLD,
+    edge_table,
     edge_use,
     load_target,
     target_from_arrays,
@@ -255,8 +256,7 @@ def test_unique_rows_is_numpys_unique(spans) -> None:
 @pytest.mark.parametrize("up", [(0.0, 0.0, 1.0), (0.0, 0.0, -1.0)])
 def test_the_edge_table_handed_over_at_intake_is_the_faces_own(up) -> None:
     # intake passes on the edge table of its orientation step (re-wound faces' edges
-    # permuted) instead of sorting again: it must equal edge_use of the final faces
-    from wirecut.geometry.mesh import edge_use
+    # permuted) instead of sorting again: it must equal edge_table of the final faces
 
     v, f = saddle(n=21)
     rng = np.random.default_rng(3)
@@ -265,11 +265,13 @@ def test_the_edge_table_handed_over_at_intake_is_the_faces_own(up) -> None:
     f[flip] = f[flip][:, ::-1]
     job = dataclasses.replace(JOB, mold=dataclasses.replace(JOB.mold, up=up))
     target, _ = target_from_arrays(v, f, job)
-    assert "edge_use" in target.__dict__
-    for got, want in zip(
-        target.edge_use, edge_use(target.faces, len(target.vertices)), strict=True
-    ):
-        assert np.array_equal(got, want)
+    assert "edge_table" in target.__dict__
+    _assert_same_table(target.edge_table, edge_table(target.faces, len(target.vertices)))
+
+
+def _assert_same_table(got, want) -> None:
+    for name in ("edges", "counts", "order", "first", "inverse"):
+        assert np.array_equal(getattr(got, name), getattr(want, name)), name
 
 
 def test_repeated_faces_any_winding_are_dropped() -> None:
@@ -280,9 +282,7 @@ def test_repeated_faces_any_winding_are_dropped() -> None:
 
 
 def test_edge_use_is_numpys_unique_of_the_edge_keys() -> None:
-    # the edge table spelt out with one argsort equals np.unique's (numpy is the reference)
-    from wirecut.geometry.mesh import edge_use
-
+    # the edge table spelt out with one sort equals np.unique's (numpy is the reference)
     v, f = saddle(n=15)
     n = len(v)
     a, b = f.astype(np.int64), np.roll(f, -1, axis=1).astype(np.int64)
@@ -292,6 +292,40 @@ def test_edge_use_is_numpys_unique_of_the_edge_keys() -> None:
     assert np.array_equal(edges[:, 0] * n + edges[:, 1], uniq)
     assert np.array_equal(got_counts, counts)
     assert np.array_equal(got_inverse, inverse.ravel())
+
+
+@pytest.mark.parametrize("packed", [True, False])
+def test_edge_table_pairs_and_lone_edges_match_a_sort_of_the_inverse(packed) -> None:
+    # pairs() and lone() read the grouping the sort made; spelt out from numpy's inverse they
+    # are a stable argsort of the manifold positions and the positions of count-1 edges. A
+    # huge vertex count forces the unpacked (argsort) path, which must agree to the element.
+    v, f = saddle(n=15)
+    f = f[np.random.default_rng(5).permutation(len(f))]
+    n = len(v) if packed else 2**40
+    table = edge_table(f, n)
+    a0, b0 = f.astype(np.int64), np.roll(f, -1, axis=1).astype(np.int64)
+    key = (np.minimum(a0, b0) * n + np.maximum(a0, b0)).ravel()
+    _, inverse, counts = np.unique(key, return_inverse=True, return_counts=True)
+    inverse = inverse.ravel()
+    inner = np.flatnonzero(counts[inverse] == 2)
+    inner = inner[np.argsort(inverse[inner], kind="stable")]
+    a, b = table.pairs()
+    assert np.array_equal(a, inner[0::2]) and np.array_equal(b, inner[1::2])
+    assert np.array_equal(table.lone(), np.flatnonzero(counts[inverse] == 1))
+    assert np.array_equal(table.inverse, inverse)
+    if not packed:
+        _assert_same_table(table, edge_table(f, 2**40))
+        small = edge_table(f, len(v))
+        assert np.array_equal(table.order, small.order)
+        assert np.array_equal(table.edges, small.edges)
+
+
+def test_a_rewound_edge_table_is_the_table_of_the_rewound_faces() -> None:
+    v, f = saddle(n=11)
+    flip = np.random.default_rng(8).random(len(f)) < 0.4
+    g = f.copy()
+    g[flip] = g[flip][:, ::-1]
+    _assert_same_table(edge_table(f, len(v)).rewound(flip), edge_table(g, len(v)))
 
 
 @pytest.mark.parametrize("wound", ["consistent", "away", "soup"])
@@ -309,9 +343,7 @@ def test_intake_hands_over_what_a_fresh_computation_gives(wound):
     tri = target.vertices[target.faces]
     area = 0.5 * np.linalg.norm(np.cross(tri[:, 1] - tri[:, 0], tri[:, 2] - tri[:, 0]), axis=1)
     assert np.allclose(target.face_areas, area, rtol=1e-12, atol=0)
-    fresh = edge_use(target.faces, len(target.vertices))
-    for got, want in zip(target.edge_use, fresh, strict=True):
-        assert np.array_equal(got, want)
+    _assert_same_table(target.edge_table, edge_table(target.faces, len(target.vertices)))
     edges = np.linalg.norm(tri - np.roll(tri, 1, axis=1), axis=2)
     assert target.mean_edge_mm == pytest.approx(edges.mean(), rel=1e-12)
     assert (target.face_normals[:, 2] > 0).all()

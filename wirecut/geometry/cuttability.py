@@ -449,10 +449,9 @@ class _SurfaceProbe:
 def _outward_boundary_directions(target: TargetSurface) -> np.ndarray:
     """(n, 3) unit tangent pointing out of the surface at boundary vertices; zero elsewhere."""
     v, f = target.vertices, target.faces
-    edges, counts, inverse = target.edge_use
     directed = np.stack([f, np.roll(f, -1, axis=1)], axis=2).reshape(-1, 2)
     third = np.roll(f, -2, axis=1).reshape(-1)
-    lone = counts[inverse] == 1
+    lone = target.edge_table.lone()
     a, b, c = directed[lone, 0], directed[lone, 1], third[lone]
     e = v[b] - v[a]
     e /= np.linalg.norm(e, axis=1, keepdims=True)

@@ -41,6 +41,8 @@ __all__ = [
     "load_target",
     "target_from_arrays",
     "waste_direction",
+    "EdgeTable",
+    "edge_table",
     "edge_use",
     "boundary_vertex_mask",
     "unique_rows",
@@ -138,14 +140,14 @@ class TargetSurface:
         return np.divide(acc, norm, out=np.zeros_like(acc), where=norm > 0)
 
     @cached_property
-    def edge_use(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-        """:func:`edge_use` of the faces (edges, counts, inverse), computed once."""
-        return edge_use(self.faces, len(self.vertices))
+    def edge_table(self) -> EdgeTable:
+        """:func:`edge_table` of the faces, computed once."""
+        return edge_table(self.faces, len(self.vertices))
 
     @cached_property
     def boundary_vertices(self) -> np.ndarray:
         """(n,) bool: vertices on an edge used by one face (or by more than two)."""
-        return boundary_vertex_mask(self.faces, len(self.vertices), self.edge_use)
+        return boundary_vertex_mask(self.faces, len(self.vertices), self.edge_table)
 
     @cached_property
     def mean_edge_mm(self) -> float:
@@ -185,8 +187,92 @@ def _scatter_rows(index: np.ndarray, values: np.ndarray, n: int) -> np.ndarray:
     )
 
 
+@dataclass(frozen=True, eq=False)
+class EdgeTable:
+    """The undirected edges of a triangle mesh and the directed face edges that use them.
+
+    The directed face edges are numbered by position ``3 f + k``: edge k of face f runs from
+    corner k to corner ``(k + 1) % 3``.
+
+    Attributes
+    ----------
+    edges : (e, 2) int64
+        Unique undirected edges, smaller vertex index first, in lexicographic order.
+    counts : (e,) int64
+        Number of face edges on each edge (1 on the boundary, 2 inside a manifold).
+    order : (3m,) int64
+        Face-edge positions grouped by edge in the order of ``edges``, ascending within an edge.
+    first : (e,) int64
+        Where each edge's run starts in ``order``.
+    """
+
+    edges: np.ndarray
+    counts: np.ndarray
+    order: np.ndarray
+    first: np.ndarray
+
+    @cached_property
+    def inverse(self) -> np.ndarray:
+        """(3m,) int64: the edge of each face-edge position (``np.unique``'s inverse)."""
+        inv = np.empty(len(self.order), np.int64)
+        inv[self.order] = np.repeat(np.arange(len(self.edges)), self.counts)
+        return inv
+
+    def pairs(self) -> tuple[np.ndarray, np.ndarray]:
+        """The two face-edge positions (k,), (k,) of each edge used by exactly two faces, in
+        edge order, the smaller position first."""
+        start = self.first[self.counts == 2]
+        return self.order[start], self.order[start + 1]
+
+    def lone(self) -> np.ndarray:
+        """(k,) ascending: the face-edge positions on edges used by one face only."""
+        return np.sort(self.order[self.first[self.counts == 1]])
+
+    def rewound(self, flip: np.ndarray) -> EdgeTable:
+        """The table after faces ``flip`` (m,) bool are re-wound ``[a, b, c] -> [c, b, a]``:
+        their face edges (c, b), (b, a), (a, c) are the old edges 1, 0 and 2, so positions
+        ``3 f`` and ``3 f + 1`` trade places (within an edge the positions keep their order:
+        they belong to different faces)."""
+        if not flip.any():
+            return self
+        pos = self.order
+        face, k = np.divmod(pos, 3)
+        moved = flip[face] & (k < 2)
+        new = pos.copy()
+        new[moved] += 1 - 2 * k[moved]
+        return EdgeTable(self.edges, self.counts, new, self.first)
+
+
+def edge_table(faces: np.ndarray, n_vertices: int) -> EdgeTable:
+    """The :class:`EdgeTable` of ``faces`` (m, 3) over ``n_vertices`` vertices.
+
+    One sort: where the edge key (smaller index, larger index) and the face-edge position fit
+    in 63 bits together (every mesh within ``MAX_TRIANGLES``), both are packed into one int64
+    and sorted as plain values, which gives the grouping and the ascending positions at once;
+    otherwise a stable argsort of the keys."""
+    a = faces.astype(np.int64, copy=False)
+    b = np.roll(a, -1, axis=1)
+    kb = max(1, int(n_vertices - 1).bit_length())
+    key = ((np.minimum(a, b) << kb) | np.maximum(a, b)).ravel()
+    pb = max(1, (len(key) - 1).bit_length())
+    if 2 * kb + pb <= 63:
+        packed = np.sort((key << pb) | np.arange(len(key), dtype=np.int64))
+        order = packed & ((1 << pb) - 1)
+        sk = packed >> pb
+    else:
+        order = np.argsort(key, kind="stable")
+        sk = key[order]
+    start = np.ones(len(sk), bool)
+    np.not_equal(sk[1:], sk[:-1], out=start[1:])
+    first = np.flatnonzero(start)
+    uniq = sk[first]
+    counts = np.diff(np.append(first, len(sk)))
+    edges = np.column_stack([uniq >> kb, uniq & ((1 << kb) - 1)])
+    return EdgeTable(edges, counts, order, first)
+
+
 def edge_use(faces: np.ndarray, n_vertices: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Undirected edges and how the faces use them.
+    """Undirected edges and how the faces use them: ``np.unique`` of the edge keys.
 
     Returns
     -------
@@ -197,31 +283,18 @@ def edge_use(faces: np.ndarray, n_vertices: int) -> tuple[np.ndarray, np.ndarray
     inverse : (3m,) int
         Edge index of each directed face edge ``(f0, f1), (f1, f2), (f2, f0)`` in face order.
     """
-    a = faces.astype(np.int64, copy=False)
-    b = np.roll(a, -1, axis=1)
-    key = (np.minimum(a, b) * int(n_vertices) + np.maximum(a, b)).ravel()
-    # np.unique(key, return_inverse=True, return_counts=True), spelt out: one plain argsort
-    order = np.argsort(key)
-    sk = key[order]
-    start = np.ones(len(sk), bool)
-    np.not_equal(sk[1:], sk[:-1], out=start[1:])
-    inverse = np.empty(len(key), np.int64)
-    inverse[order] = np.cumsum(start) - 1
-    first = np.flatnonzero(start)
-    uniq = sk[first]
-    counts = np.diff(np.append(first, len(sk)))
-    edges = np.column_stack([uniq // n_vertices, uniq % n_vertices])
-    return edges, counts, inverse
+    t = edge_table(faces, n_vertices)
+    return t.edges, t.counts, t.inverse
 
 
 def boundary_vertex_mask(
-    faces: np.ndarray, n_vertices: int, edges_used: tuple | None = None
+    faces: np.ndarray, n_vertices: int, table: EdgeTable | None = None
 ) -> np.ndarray:
     """(n,) bool: vertices on an edge used by exactly one face (or by more than two).
-    ``edges_used`` is the faces' :func:`edge_use` when it is already known."""
-    edges, counts, _ = edges_used if edges_used is not None else edge_use(faces, n_vertices)
+    ``table`` is the faces' :func:`edge_table` when it is already known."""
+    t = table if table is not None else edge_table(faces, n_vertices)
     mask = np.zeros(n_vertices, bool)
-    mask[edges[counts != 2].ravel()] = True
+    mask[t.edges[t.counts != 2].ravel()] = True
     return mask
 
 
@@ -234,22 +307,18 @@ def _orient_consistently(faces: np.ndarray, n_vertices: int) -> tuple[np.ndarray
     same doubled component as the first face of its component as given.
 
     Returns the re-wound faces (m, 3), the component label of each face (m,) and the
-    :func:`edge_use` of the re-wound faces.
+    :func:`edge_table` of the re-wound faces.
     """
     m = len(faces)
     forward = (faces < np.roll(faces, -1, axis=1)).reshape(-1)
-    edges, counts, inverse = edge_use(faces, n_vertices)
-    face_of = np.repeat(np.arange(m), 3)
-    manifold = counts[inverse] == 2
-    order = np.argsort(inverse[manifold], kind="stable")
-    idx = np.flatnonzero(manifold)[order]
-    a, b = idx[0::2], idx[1::2]
-    fa, fb = face_of[a], face_of[b]
+    table = edge_table(faces, n_vertices)
+    a, b = table.pairs()
+    fa, fb = a // 3, b // 3
     same_dir = forward[a] == forward[b]
     plain = sparse.coo_matrix((np.ones(len(fa)), (fa, fb)), shape=(m, m))
     n_comp, comp = csgraph.connected_components(plain, directed=False)
     if not same_dir.any():  # consistent already (most exported meshes): nothing to flip
-        return faces.copy(), comp, (edges, counts, inverse)
+        return faces.copy(), comp, table
     src = np.concatenate([fa, fa + m])
     dst = np.concatenate([np.where(same_dir, fb + m, fb), np.where(same_dir, fb, fb + m)])
     doubled = sparse.coo_matrix((np.ones(len(src)), (src, dst)), shape=(2 * m, 2 * m))
@@ -261,15 +330,7 @@ def _orient_consistently(faces: np.ndarray, n_vertices: int) -> tuple[np.ndarray
     flip &= label2[np.arange(m)] != label2[np.arange(m) + m]
     out = faces.copy()
     out[flip] = out[flip][:, ::-1]
-    return out, comp, (edges, counts, _rewound(inverse, flip))
-
-
-def _rewound(inverse: np.ndarray, flip: np.ndarray) -> np.ndarray:
-    """The edge_use inverse (3m,) after faces ``flip`` (m,) are re-wound ``[a, b, c] -> [c, b,
-    a]``: their directed edges (c, b), (b, a), (a, c) are the old edges 1, 0 and 2."""
-    inv = inverse.reshape(-1, 3).copy()
-    inv[flip] = inv[flip][:, [1, 0, 2]]
-    return inv.reshape(-1)
+    return out, comp, table.rewound(flip)
 
 
 #: A binary STL triangle record: normal, three corners (float32 each), attribute bytes.
@@ -546,8 +607,8 @@ def _build(
             )
         )
 
-    faces, comp, edges_used = _orient_consistently(faces, len(vertices))
-    counts = edges_used[1]
+    faces, comp, table = _orient_consistently(faces, len(vertices))
+    counts = table.counts
     w = waste_direction(job.mold.up, job.mold.side)
     closed = bool((counts == 2).all())
     e01, e02 = _face_edges(vertices, faces)
@@ -572,7 +633,7 @@ def _build(
         faces[flip] = faces[flip][:, ::-1]
         doubled[flip] = -doubled[flip]
         normals = doubled / np.linalg.norm(doubled, axis=1, keepdims=True)
-        edges_used = (*edges_used[:2], _rewound(edges_used[2], flip))
+        table = table.rewound(flip)
     face_areas = 0.5 * np.linalg.norm(doubled, axis=1)
     target = TargetSurface(
         vertices=vertices,
@@ -589,7 +650,7 @@ def _build(
     # the same faces: hand over what intake measured instead of computing it again
     target.__dict__["face_areas"] = face_areas
     if not closed:
-        target.__dict__["edge_use"] = edges_used
+        target.__dict__["edge_table"] = table
     if target.area_mm2 <= 0.0:
         raise MeshError(f"{label} has zero total area")
     return target, findings

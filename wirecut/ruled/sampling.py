@@ -243,7 +243,7 @@ class _Prepared:
         self._grid: PlanGrid | None = None
         self.vertices = vertices
         self.faces = faces
-        self._edge_use = getattr(target, "edge_use", None)
+        self._edge_table = getattr(target, "edge_table", None)
         self._detail: float | None = None
 
     def detail_spacing(self) -> float:
@@ -253,16 +253,14 @@ class _Prepared:
         centroids (the discrete normal curvature across the edge; 1/R on a sphere of radius
         R). Infinite for a flat target. Computed on first use."""
         if self._detail is None:
-            from wirecut.geometry.mesh import edge_use
+            from wirecut.geometry.mesh import edge_table
 
             faces = self.faces
-            n_vertices = int(faces.max()) + 1
-            _, counts, inverse = (
-                self._edge_use if self._edge_use is not None else edge_use(faces, n_vertices)
-            )
-            inner = np.flatnonzero(counts[inverse] == 2)
-            inner = inner[np.argsort(inverse[inner], kind="stable")]
-            fa, fb = inner[0::2] // 3, inner[1::2] // 3
+            table = self._edge_table
+            if table is None:
+                table = edge_table(faces, int(faces.max()) + 1)
+            a, b = table.pairs()
+            fa, fb = a // 3, b // 3
             cos = np.clip(np.einsum("ij,ij->i", self.normals[fa], self.normals[fb]), -1.0, 1.0)
             centre = self.tri.mean(axis=1)
             gap = np.linalg.norm(centre[fa] - centre[fb], axis=1)
