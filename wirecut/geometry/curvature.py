@@ -190,7 +190,8 @@ def tangent_frames(normals: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
 
 
 def _two_ring(faces: np.ndarray, n: int) -> sparse.csr_matrix:
-    """Sparse (n, n) pattern of the 2-ring neighbourhood of each vertex (self excluded)."""
+    """Sparse (n, n) pattern of the 2-ring neighbourhood of each vertex (self excluded): a
+    one for each neighbour, so that ``ring @ x`` sums x over the ring."""
     i = faces[:, [0, 1, 2, 1, 2, 0]].ravel()
     j = faces[:, [1, 2, 0, 0, 1, 2]].ravel()
     one = sparse.csr_matrix((np.ones(len(i), np.float32), (i, j)), shape=(n, n))
@@ -199,7 +200,9 @@ def _two_ring(faces: np.ndarray, n: int) -> sparse.csr_matrix:
     two.setdiag(0)
     two.eliminate_zeros()
     two.sort_indices()
-    return two.tocsr()
+    two = two.tocsr()
+    two.data[:] = 1.0
+    return two
 
 
 def _fit_chunk(vertices, normals, t1, t2, indptr, indices, start: int, stop: int) -> np.ndarray:
@@ -323,14 +326,14 @@ def vertex_curvature(target: TargetSurface) -> Curvature:
     coef, t1, t2 = _fit_quadrics(v, normals, ring, meanwhile=angles)
     area, defect, gauss = angle["area"], angle["defect"], angle["gauss"]
     interior = np.isfinite(gauss)
-    patch = ring.copy()
-    patch.data[:] = 1.0
-    patch = patch + sparse.identity(n, format="csr")
+    # sums over the patch: the ring's plus the vertex's own (no ring-plus-identity matrix)
     inner_defect = np.where(interior, defect, 0.0)
     inner_area = np.where(interior, area, 0.0)
-    patch_area = patch @ inner_area
+    patch_area = ring @ inner_area + inner_area
     with np.errstate(divide="ignore", invalid="ignore"):
-        gauss_patch = np.where(patch_area > 0, (patch @ inner_defect) / patch_area, np.nan)
+        gauss_patch = np.where(
+            patch_area > 0, (ring @ inner_defect + inner_defect) / patch_area, np.nan
+        )
     a, b, c, d, e = coef[:, :5].T
     E, F, G = 1.0 + d * d, d * e, 1.0 + e * e
     g = np.sqrt(1.0 + d * d + e * e)

@@ -264,6 +264,7 @@ def analyse_surface(target: TargetSurface, job: JobProfile) -> SurfaceAnalysis:
     reach = np.minimum(sagitta_reach(np.minimum(np.abs(cu.k1), np.abs(cu.k2)), tol, policy), extent)
     direction = least.copy()
     marched = np.zeros(len(kind), bool)
+    tree = None  # a KD-tree of all the vertices, once the wire reach has built one
     cand = np.flatnonzero(kind != SYNCLASTIC)
     if cand.size:
         # march from interior vertices (one-sided boundary fits give poorer directions)
@@ -276,6 +277,7 @@ def analyse_surface(target: TargetSurface, job: JobProfile) -> SurfaceAnalysis:
         options[kind == DEVELOPABLE, :2] = np.nan
         step = extent / _STEPS
         probe = _SurfaceProbe(target, cu)
+        tree = probe.tree
 
         def march_from(lines: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
             """Longest reach (k,) mm and its direction (k, 3) from vertices pick[lines]."""
@@ -318,8 +320,7 @@ def analyse_surface(target: TargetSurface, job: JobProfile) -> SurfaceAnalysis:
         best_dir[unset] = least[pick[unset]]
         best_len = np.minimum(best_len, extent)
         # fill the other candidates from the nearest marched vertex
-        tree = cKDTree(target.vertices[pick])
-        _, near = tree.query(target.vertices[cand])
+        _, near = cKDTree(target.vertices[pick]).query(target.vertices[cand])
         reach[cand] = best_len[near]
         ref = best_dir[near]
         opts = options[cand]
@@ -334,8 +335,7 @@ def analyse_surface(target: TargetSurface, job: JobProfile) -> SurfaceAnalysis:
     edge_v = np.flatnonzero(~cu.interior)
     inner_v = np.flatnonzero(cu.interior)
     if edge_v.size and inner_v.size:
-        _, near = cKDTree(target.vertices[inner_v]).query(target.vertices[edge_v])
-        src = inner_v[near]
+        src = _nearest_interior(target.vertices, cu.interior, edge_v, inner_v, tree)
         kind[edge_v] = kind[src]
         reach[edge_v] = reach[src]
         direction[edge_v] = direction[src]
@@ -359,6 +359,35 @@ def analyse_surface(target: TargetSurface, job: JobProfile) -> SurfaceAnalysis:
         target_area_mm2=target.area_mm2,
         min_width_mm=float(job.pieces.min_width_mm),
     )
+
+
+def _nearest_interior(
+    vertices: np.ndarray,
+    interior: np.ndarray,
+    edge_v: np.ndarray,
+    inner_v: np.ndarray,
+    tree: cKDTree | None,
+    k: int = 16,
+) -> np.ndarray:
+    """(len(edge_v),) int: the nearest interior vertex of each vertex ``edge_v``.
+
+    With ``tree`` (a KD-tree of all the vertices, already built) the k nearest vertices are
+    asked first and the first interior one taken: the nearest interior vertex whenever one is
+    among them. Only the rest are asked of a tree of the interior vertices (built only then).
+    """
+    at = vertices[edge_v]
+    src = np.full(len(edge_v), -1, np.int64)
+    if tree is not None and tree.n == len(vertices):
+        _, idx = tree.query(at, k=min(k, tree.n))
+        idx = idx.reshape(len(edge_v), -1)
+        inner = interior[idx]
+        found = inner.any(axis=1)
+        src[found] = idx[found, np.argmax(inner[found], axis=1)]
+    rest = np.flatnonzero(src < 0)
+    if rest.size:
+        _, near = cKDTree(vertices[inner_v]).query(at[rest])
+        src[rest] = inner_v[near]
+    return src
 
 
 def _turn_onto_asymptote(
@@ -392,12 +421,15 @@ def _direction_options(
     """
     e1, e2, _ = plan_basis(up)
     extra = np.stack([e1, e2, e1 + e2, e1 - e2])  # (4, 3)
-    n = cu.normals
+    out = np.full((len(least), 7, 3), np.nan)
+    out[:, :2] = cu.asymptotic
+    out[:, 2] = least
+    at = np.flatnonzero(flat)  # only flat points take the plan directions
+    n = cu.normals[at]
     t = extra[None, :, :] - np.einsum("kd,jd->kj", n, extra)[:, :, None] * n[:, None, :]
     norm = np.linalg.norm(t, axis=2, keepdims=True)
-    t = np.where(norm > 1e-6, t / np.where(norm > 0, norm, 1.0), np.nan)
-    t[~flat] = np.nan
-    return np.concatenate([cu.asymptotic, least[:, None, :], t], axis=1)
+    out[at, 3:] = np.where(norm > 1e-6, t / np.where(norm > 0, norm, 1.0), np.nan)
+    return out
 
 
 def _deterministic_subsample(target: TargetSurface, cand: np.ndarray, limit: int) -> np.ndarray:
