@@ -9,6 +9,19 @@ of the extent squared) are vertical and never hit.
 
 Used by the analysis (undercut: the ray from a vertex meets the target again) and by the check
 map (what the wire sees first at every pixel).
+
+Most molds are height fields over the plan: no two points of the surface share a plan position,
+and then no vertex's ray can meet the target again. :func:`plan_view_injective` proves that
+without casting a ray. The plan projection is linear on each face; when every face looks toward
+the waste side (positive plan area, none edge-on), the number of faces over a plan point off the
+boundary's image equals the winding number of the projected boundary about it (the faces'
+winding numbers add up and the interior edges cancel: the degree of the projection, as in the
+argument principle). So the projection is one-to-one exactly when that winding number is 0 or 1
+everywhere, and with boundary loops that neither cross nor touch (each one simple, no two
+meeting) that is read off the loops' nesting: the winding just inside and just outside each loop.
+A surface that fails any part of the test (a face looking away or edge-on, a pinched or
+non-manifold boundary, crossing loops, a soup with too many boundary edges to trace) has its
+rays cast as before.
 """
 
 from __future__ import annotations
@@ -21,11 +34,90 @@ from wirecut.geometry.frames import to_plan
 from wirecut.geometry.mesh import TargetSurface
 from wirecut.geometry.plan_grid import PlanGrid
 
-__all__ = ["occluded_vertices", "first_hit_faces", "FORK_FACES"]
+__all__ = ["occluded_vertices", "first_hit_faces", "plan_view_injective", "FORK_FACES"]
 
 #: From this many target faces a ray cast repays running in a forked worker process
 #: (:func:`wirecut.workers.background`) beside other work.
 FORK_FACES = 50_000
+#: Most boundary edges :func:`plan_view_injective` traces into loops; beyond it (a triangle
+#: soup is all boundary) the rays are cast instead.
+_CERTIFY_EDGES = 200_000
+#: Most boundary loops it compares pairwise for their nesting.
+_CERTIFY_LOOPS = 64
+
+
+def _plan_and_det(target: TargetSurface) -> tuple[np.ndarray, np.ndarray, float]:
+    """Plan coordinates (n, 2) of the vertices, twice the signed plan area of each face (m,),
+    and the edge-on threshold of that area (mm^2)."""
+    plan = to_plan(target.vertices, target.up)  # the part plan view
+    f = target.faces
+    a, b, c = plan[f[:, 0]], plan[f[:, 1]], plan[f[:, 2]]
+    det = (b[:, 0] - a[:, 0]) * (c[:, 1] - a[:, 1]) - (c[:, 0] - a[:, 0]) * (b[:, 1] - a[:, 1])
+    scale = float(np.ptp(plan, axis=0).max()) if len(plan) else 1.0
+    return plan, det, 1e-12 * scale**2
+
+
+def plan_view_injective(target: TargetSurface, plan_det=None) -> bool:
+    """True when no two points of the target share a plan position (proven; see the module
+    docstring): every face looks toward the waste side and is not edge-on, the boundary is
+    closed manifold loops, the projected loops neither cross nor touch, and the winding number
+    just inside and just outside every loop is 0 or 1. False means *not proven*: the rays must
+    be cast. ``plan_det`` is :func:`_plan_and_det` of the target when already computed."""
+    import shapely
+
+    plan, det, thr = plan_det if plan_det is not None else _plan_and_det(target)
+    sign = 1.0 if float(target.waste_normal @ target.up) > 0 else -1.0
+    if len(det) == 0 or not (sign * det > thr).all():
+        return False
+    table = target.edge_table
+    if (table.counts > 2).any():
+        return False
+    lone = table.lone()
+    if len(lone) == 0 or len(lone) > _CERTIFY_EDGES:
+        return False
+    face, k = np.divmod(lone, 3)
+    tail = target.faces[face, k]
+    head = target.faces[face, (k + 1) % 3]
+    n = len(plan)
+    if np.bincount(tail, minlength=n).max() > 1 or np.bincount(head, minlength=n).max() > 1:
+        return False  # a pinched boundary: two loops through one vertex
+    nxt = np.full(n, -1, np.int64)
+    nxt[tail] = head
+    if (nxt[head] < 0).any():
+        return False  # a boundary path that does not close
+    todo = np.zeros(n, bool)
+    todo[tail] = True
+    nxt_list = nxt.tolist()
+    loops: list[np.ndarray] = []
+    for start in tail.tolist():
+        if not todo[start]:
+            continue
+        loop = [start]
+        todo[start] = False
+        at = nxt_list[start]
+        while at != start:
+            loop.append(at)
+            todo[at] = False
+            at = nxt_list[at]
+        if len(loops) == _CERTIFY_LOOPS:
+            return False
+        loops.append(np.asarray(loop))
+    rings = [plan[np.append(loop, loop[0])] for loop in loops]
+    if not shapely.MultiLineString(rings).is_simple:
+        return False  # loops that cross or touch, or a loop that crosses itself
+    # orientation of each loop as the faces wind it: +1 an outer boundary, -1 a hole
+    area = [0.5 * float(np.sum(r[:-1, 0] * r[1:, 1] - r[1:, 0] * r[:-1, 1])) * sign for r in rings]
+    turn = [1 if x > 0 else -1 for x in area]
+    polygons = [shapely.Polygon(r) for r in rings]
+    for i, r in enumerate(rings):
+        outside = sum(
+            turn[j]
+            for j in range(len(rings))
+            if j != i and shapely.contains_xy(polygons[j], r[0, 0], r[0, 1])
+        )
+        if outside not in (0, 1) or outside + turn[i] not in (0, 1):
+            return False
+    return True
 
 
 @dataclass(frozen=True, eq=False)
@@ -39,15 +131,13 @@ class _PlanIndex:
     grid: PlanGrid  # the faces that are not edge-on, by their plan boxes
 
     @classmethod
-    def build(cls, target: TargetSurface) -> _PlanIndex | None:
+    def build(cls, target: TargetSurface, plan_det=None) -> _PlanIndex | None:
         w = target.waste_normal
         v, f = target.vertices, target.faces
-        plan = to_plan(v, target.up)  # the part plan view; heights along the waste direction
-        tri = plan[f]
-        a, b, c = tri[:, 0], tri[:, 1], tri[:, 2]
-        det = (b[:, 0] - a[:, 0]) * (c[:, 1] - a[:, 1]) - (c[:, 0] - a[:, 0]) * (b[:, 1] - a[:, 1])
-        scale = float(np.ptp(plan, axis=0).max()) if len(plan) else 1.0
-        tid = np.flatnonzero(np.abs(det) > 1e-12 * scale**2)
+        # the part plan view; heights along the waste direction
+        plan, det, thr = plan_det if plan_det is not None else _plan_and_det(target)
+        a, b, c = plan[f[:, 0]], plan[f[:, 1]], plan[f[:, 2]]
+        tid = np.flatnonzero(np.abs(det) > thr)
         if tid.size == 0:
             return None
         a, b, c = a[tid], b[tid], c[tid]
@@ -89,10 +179,19 @@ def occluded_vertices(target: TargetSurface) -> np.ndarray:
 
     The ray is parallel to the waste direction ``w``, so it is the plan-view point-in-triangle
     test with heights ``p . w``; triangles are bucketed on a plan grid. The vertex's own faces
-    do not count.
+    do not count. A target whose plan view is proven one-to-one (:func:`plan_view_injective`)
+    has no occluded vertex and casts no ray.
     """
+    plan_det = _plan_and_det(target)
+    if plan_view_injective(target, plan_det):
+        return np.zeros(len(target.vertices), bool)
+    return _vertex_rays(target, plan_det)
+
+
+def _vertex_rays(target: TargetSurface, plan_det=None) -> np.ndarray:
+    """(n,) bool: :func:`occluded_vertices` by casting every vertex's ray."""
     out = np.zeros(len(target.vertices), bool)
-    index = _PlanIndex.build(target)
+    index = _PlanIndex.build(target, plan_det)
     if index is None:
         return out
     eps = 1e-6 * max(target.extent_mm, 1e-9)
