@@ -11,7 +11,7 @@ from shapes import cylinder, grid_faces, jittered_graph, saddle, sphere_cap
 
 from wirecut.config import MoldSide, default_job
 from wirecut.geometry.mesh import target_from_arrays
-from wirecut.geometry.occlusion import _vertex_rays, occluded_vertices, plan_view_injective
+from wirecut.geometry.occlusion import occluded_vertices, plan_view_injective, vertex_rays
 
 JOB = default_job()
 
@@ -78,7 +78,7 @@ def test_height_fields_are_certified_and_their_rays_agree(name) -> None:
     # the certificate is a proof of what the rays find: no vertex meets the target again
     target = _target(*HEIGHT_FIELDS[name])
     assert plan_view_injective(target)
-    assert not _vertex_rays(target).any()
+    assert not vertex_rays(target).any()
     assert not occluded_vertices(target).any()
 
 
@@ -87,7 +87,7 @@ def test_a_counter_mold_is_certified_from_below() -> None:
     v, f = sphere_cap(2000.0, 500.0, 21)
     target = _target(v, f, side=MoldSide.ABOVE)
     assert plan_view_injective(target)
-    assert not _vertex_rays(target).any()
+    assert not vertex_rays(target).any()
 
 
 NOT_CERTIFIED = {
@@ -108,7 +108,7 @@ def test_overlapping_or_unproven_surfaces_cast_their_rays(name) -> None:
     target = _target(v, f)  # intake merges the pinched corner into one vertex
     assert not plan_view_injective(target)
     assert occluded_vertices(target).any() == occluded
-    assert np.array_equal(occluded_vertices(target), _vertex_rays(target))
+    assert np.array_equal(occluded_vertices(target), vertex_rays(target))
 
 
 def test_a_vertical_step_is_left_to_the_rays() -> None:
@@ -139,7 +139,7 @@ def test_random_folded_grids_never_certify_an_occluded_surface() -> None:
         )
         target = _target(v, grid_faces(n, n))
         certified = plan_view_injective(target)
-        rays = _vertex_rays(target)
+        rays = vertex_rays(target)
         if certified:
             assert not rays.any(), case
         seen[certified] += 1

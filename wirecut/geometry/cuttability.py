@@ -62,7 +62,7 @@ from wirecut.config import JobProfile, Policy
 from wirecut.geometry.curvature import Curvature, vertex_curvature
 from wirecut.geometry.frames import plan_basis, to_plan
 from wirecut.geometry.mesh import TargetSurface
-from wirecut.geometry.occlusion import FORK_FACES, occluded_vertices
+from wirecut.geometry.occlusion import FORK_FACES, plan_and_det, plan_view_injective, vertex_rays
 from wirecut.geometry.vectors import cross
 from wirecut.workers import background
 
@@ -240,11 +240,15 @@ def analyse_surface(target: TargetSurface, job: JobProfile) -> SurfaceAnalysis:
     SurfaceAnalysis
         See the module docstring for every rule.
     """
-    # the undercut rays do not need the curvature: a large mesh casts them in a worker
-    # process while the curvature is fitted here
-    occluded = background(
-        lambda: occluded_vertices(target), min_size=FORK_FACES, size=len(target.faces)
-    )
+    # a height field over the plan has no occluded vertex (proven without a ray); otherwise
+    # the rays do not need the curvature: a large mesh casts them in a worker process while
+    # the curvature is fitted here
+    plan_det = plan_and_det(target)
+    occluded = None
+    if not plan_view_injective(target, plan_det):
+        occluded = background(
+            lambda: vertex_rays(target, plan_det), min_size=FORK_FACES, size=len(target.faces)
+        )
     cu = vertex_curvature(target)
     tol, policy = job.tolerance.surface_mm, job.tolerance.policy
     s = allowed_sagitta(tol, policy)
@@ -341,7 +345,9 @@ def analyse_surface(target: TargetSurface, job: JobProfile) -> SurfaceAnalysis:
         direction[edge_v] = direction[src]
 
     w = target.waste_normal
-    undercut = (target.vertex_normals @ w < -_VERTICAL) | occluded.result()
+    undercut = target.vertex_normals @ w < -_VERTICAL
+    if occluded is not None:
+        undercut |= occluded.result()
     return SurfaceAnalysis(
         curvature=cu,
         kind=kind,

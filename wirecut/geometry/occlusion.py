@@ -34,7 +34,14 @@ from wirecut.geometry.frames import to_plan
 from wirecut.geometry.mesh import TargetSurface
 from wirecut.geometry.plan_grid import PlanGrid
 
-__all__ = ["occluded_vertices", "first_hit_faces", "plan_view_injective", "FORK_FACES"]
+__all__ = [
+    "occluded_vertices",
+    "vertex_rays",
+    "first_hit_faces",
+    "plan_view_injective",
+    "plan_and_det",
+    "FORK_FACES",
+]
 
 #: From this many target faces a ray cast repays running in a forked worker process
 #: (:func:`wirecut.workers.background`) beside other work.
@@ -46,7 +53,7 @@ _CERTIFY_EDGES = 200_000
 _CERTIFY_LOOPS = 64
 
 
-def _plan_and_det(target: TargetSurface) -> tuple[np.ndarray, np.ndarray, float]:
+def plan_and_det(target: TargetSurface) -> tuple[np.ndarray, np.ndarray, float]:
     """Plan coordinates (n, 2) of the vertices, twice the signed plan area of each face (m,),
     and the edge-on threshold of that area (mm^2)."""
     plan = to_plan(target.vertices, target.up)  # the part plan view
@@ -62,10 +69,10 @@ def plan_view_injective(target: TargetSurface, plan_det=None) -> bool:
     docstring): every face looks toward the waste side and is not edge-on, the boundary is
     closed manifold loops, the projected loops neither cross nor touch, and the winding number
     just inside and just outside every loop is 0 or 1. False means *not proven*: the rays must
-    be cast. ``plan_det`` is :func:`_plan_and_det` of the target when already computed."""
+    be cast. ``plan_det`` is :func:`plan_and_det` of the target when already computed."""
     import shapely
 
-    plan, det, thr = plan_det if plan_det is not None else _plan_and_det(target)
+    plan, det, thr = plan_det if plan_det is not None else plan_and_det(target)
     sign = 1.0 if float(target.waste_normal @ target.up) > 0 else -1.0
     if len(det) == 0 or not (sign * det > thr).all():
         return False
@@ -135,7 +142,7 @@ class _PlanIndex:
         w = target.waste_normal
         v, f = target.vertices, target.faces
         # the part plan view; heights along the waste direction
-        plan, det, thr = plan_det if plan_det is not None else _plan_and_det(target)
+        plan, det, thr = plan_det if plan_det is not None else plan_and_det(target)
         a, b, c = plan[f[:, 0]], plan[f[:, 1]], plan[f[:, 2]]
         tid = np.flatnonzero(np.abs(det) > thr)
         if tid.size == 0:
@@ -182,13 +189,13 @@ def occluded_vertices(target: TargetSurface) -> np.ndarray:
     do not count. A target whose plan view is proven one-to-one (:func:`plan_view_injective`)
     has no occluded vertex and casts no ray.
     """
-    plan_det = _plan_and_det(target)
+    plan_det = plan_and_det(target)
     if plan_view_injective(target, plan_det):
         return np.zeros(len(target.vertices), bool)
-    return _vertex_rays(target, plan_det)
+    return vertex_rays(target, plan_det)
 
 
-def _vertex_rays(target: TargetSurface, plan_det=None) -> np.ndarray:
+def vertex_rays(target: TargetSurface, plan_det=None) -> np.ndarray:
     """(n,) bool: :func:`occluded_vertices` by casting every vertex's ray."""
     out = np.zeros(len(target.vertices), bool)
     index = _PlanIndex.build(target, plan_det)
