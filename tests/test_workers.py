@@ -97,3 +97,23 @@ def test_background_runs_here_when_small_serial_or_nested(monkeypatch) -> None:
     # inside a pmap worker a background job runs in that worker
     out = pmap(lambda k: background(os.getpid).result() == os.getpid(), range(2))
     assert out == [True, True]
+
+
+def test_threaded_returns_the_value_and_raises_the_error() -> None:
+    import threading
+
+    from wirecut.workers import threaded
+
+    big = np.random.default_rng(4).random((20_000, 3))
+    from scipy.spatial import cKDTree
+
+    job = threaded(lambda: (cKDTree(big), threading.get_ident()))
+    tree, ident = job.result()
+    assert ident != threading.get_ident()  # it ran in another thread
+    assert tree.query(big[7])[1] == 7
+
+    def fail() -> None:
+        raise JobError("no tree today")
+
+    with pytest.raises(JobError, match="no tree today"):
+        threaded(fail).result()

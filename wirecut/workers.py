@@ -25,7 +25,7 @@ from typing import Any, TypeVar
 
 from wirecut.errors import JobError
 
-__all__ = ["pmap", "forked", "background", "worker_count"]
+__all__ = ["pmap", "forked", "background", "threaded", "worker_count"]
 
 T = TypeVar("T")
 R = TypeVar("R")
@@ -183,6 +183,42 @@ class _Later:
                 self._value = value
             self._done = True
         return self._value
+
+
+class _Threaded:
+    """The result of :func:`threaded`: ``result()`` joins the thread and returns (or raises)."""
+
+    def __init__(self, fn: Callable[[], Any]) -> None:
+        import threading
+
+        self._out: tuple[bool, Any] | None = None
+
+        def run() -> None:
+            try:
+                self._out = (True, fn())
+            except BaseException as exc:  # noqa: BLE001 - raised again in result()
+                self._out = (False, exc)
+
+        self._thread = threading.Thread(target=run, daemon=True)
+        self._thread.start()
+
+    def result(self) -> Any:
+        self._thread.join()
+        ok, value = self._out  # type: ignore[misc]
+        if not ok:
+            raise value
+        return value
+
+
+def threaded(fn: Callable[[], R]) -> _Threaded:
+    """Start ``fn()`` in a thread of this process; ``.result()`` waits for it.
+
+    For compiled work that lets go of the interpreter lock (a scipy KD-tree build, large numpy
+    loops) while this thread goes on with other work. The caller asks for the result before it
+    forks a worker (a fork copies only the thread that calls it) and ``fn`` must not change
+    anything the caller reads meanwhile.
+    """
+    return _Threaded(fn)
 
 
 def background(fn: Callable[[], R], min_size: int = 0, size: int = 0) -> _Later:

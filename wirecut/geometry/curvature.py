@@ -296,13 +296,17 @@ def _fit_quadrics(
     return coef, t1, t2
 
 
-def vertex_curvature(target: TargetSurface) -> Curvature:
+def vertex_curvature(target: TargetSurface, after_fit=None) -> Curvature:
     """Gaussian, principal and mean curvature, principal and asymptotic directions per vertex.
 
     Parameters
     ----------
     target : TargetSurface
         Normals oriented toward the waste side.
+
+    after_fit : callable () -> None, optional
+        Called once the quadric fits' worker processes have ended (before the rest of the
+        curvature is derived): where a caller may start a thread without a fork to follow.
 
     Returns
     -------
@@ -324,6 +328,8 @@ def vertex_curvature(target: TargetSurface) -> Curvature:
             angle["gauss"] = np.where(~boundary & (area > 0), defect / area, np.nan)
 
     coef, t1, t2 = _fit_quadrics(v, normals, ring, meanwhile=angles)
+    if after_fit is not None:
+        after_fit()
     area, defect, gauss = angle["area"], angle["defect"], angle["gauss"]
     interior = np.isfinite(gauss)
     # sums over the patch: the ring's plus the vertex's own (no ring-plus-identity matrix)

@@ -64,7 +64,7 @@ from wirecut.geometry.frames import plan_basis, to_plan
 from wirecut.geometry.mesh import TargetSurface
 from wirecut.geometry.occlusion import FORK_FACES, plan_and_det, plan_view_injective, vertex_rays
 from wirecut.geometry.vectors import cross
-from wirecut.workers import background
+from wirecut.workers import background, threaded, worker_count
 
 __all__ = [
     "SurfaceAnalysis",
@@ -249,7 +249,15 @@ def analyse_surface(target: TargetSurface, job: JobProfile) -> SurfaceAnalysis:
         occluded = background(
             lambda: vertex_rays(target, plan_det), min_size=FORK_FACES, size=len(target.faces)
         )
-    cu = vertex_curvature(target)
+    # a KD-tree of the vertices (the wire reach's probe, the boundary's nearest interior
+    # vertex) is built in a thread while the curvature is finished: after the fits' forks,
+    # and joined here, before any other fork
+    tree_job: dict = {}
+    cu = vertex_curvature(
+        target,
+        after_fit=lambda: tree_job.setdefault("j", threaded(_tree_and_edge(target))),
+    )
+    tree = tree_job["j"].result() if tree_job else None
     tol, policy = job.tolerance.surface_mm, job.tolerance.policy
     s = allowed_sagitta(tol, policy)
     extent = target.extent_mm
@@ -268,7 +276,6 @@ def analyse_surface(target: TargetSurface, job: JobProfile) -> SurfaceAnalysis:
     reach = np.minimum(sagitta_reach(np.minimum(np.abs(cu.k1), np.abs(cu.k2)), tol, policy), extent)
     direction = least.copy()
     marched = np.zeros(len(kind), bool)
-    tree = None  # a KD-tree of all the vertices, once the wire reach has built one
     cand = np.flatnonzero(kind != SYNCLASTIC)
     if cand.size:
         # march from interior vertices (one-sided boundary fits give poorer directions)
@@ -280,8 +287,7 @@ def analyse_surface(target: TargetSurface, job: JobProfile) -> SurfaceAnalysis:
         # zero k1 k2 lean off the ruling by atan(sqrt(|k_small / k_big|))
         options[kind == DEVELOPABLE, :2] = np.nan
         step = extent / _STEPS
-        probe = _SurfaceProbe(target, cu)
-        tree = probe.tree
+        probe = _SurfaceProbe(target, cu, tree)
 
         def march_from(lines: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
             """Longest reach (k,) mm and its direction (k, 3) from vertices pick[lines]."""
@@ -324,11 +330,19 @@ def analyse_surface(target: TargetSurface, job: JobProfile) -> SurfaceAnalysis:
         best_dir[unset] = least[pick[unset]]
         best_len = np.minimum(best_len, extent)
         # fill the other candidates from the nearest marched vertex
-        _, near = cKDTree(target.vertices[pick]).query(target.vertices[cand])
+        # the cores are free again here: the query runs on each of them
+        _, near = cKDTree(target.vertices[pick]).query(
+            target.vertices[cand], workers=worker_count()
+        )
         reach[cand] = best_len[near]
         ref = best_dir[near]
         opts = options[cand]
-        dots = np.abs(np.einsum("kod,kd->ko", np.nan_to_num(opts), ref))
+        dots = np.abs(
+            opts[:, :, 0] * ref[:, None, 0]
+            + opts[:, :, 1] * ref[:, None, 1]
+            + opts[:, :, 2] * ref[:, None, 2]
+        )
+        dots[np.isnan(dots)] = 0.0  # an option that does not apply (NaN) scores nothing
         choice = np.argmax(dots, axis=1)
         direction[cand] = opts[np.arange(len(cand)), choice]
         direction[pick] = best_dir
@@ -365,6 +379,17 @@ def analyse_surface(target: TargetSurface, job: JobProfile) -> SurfaceAnalysis:
         target_area_mm2=target.area_mm2,
         min_width_mm=float(job.pieces.min_width_mm),
     )
+
+
+def _tree_and_edge(target: TargetSurface):
+    """Work for a thread: a KD-tree of the target's vertices, and its mean edge (cached on the
+    target); both are compiled loops that let the interpreter go."""
+
+    def work() -> cKDTree:
+        target.mean_edge_mm  # noqa: B018 - computed and cached here, read by the probe
+        return cKDTree(target.vertices)
+
+    return work
 
 
 def _nearest_interior(
@@ -457,9 +482,9 @@ def _deterministic_subsample(target: TargetSurface, cand: np.ndarray, limit: int
 class _SurfaceProbe:
     """Signed distance (mm) of points from the surface along the nearest vertex's normal."""
 
-    def __init__(self, target: TargetSurface, cu: Curvature) -> None:
+    def __init__(self, target: TargetSurface, cu: Curvature, tree: cKDTree | None = None) -> None:
         self.v = target.vertices
-        self.tree = cKDTree(self.v)
+        self.tree = cKDTree(self.v) if tree is None else tree
         self.edge = target.mean_edge_mm
         self.off = 2.0 * self.edge
         self.reach = 3.0 * self.edge + 1e-9
