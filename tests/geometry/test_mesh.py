@@ -236,7 +236,14 @@ def test_every_format_refuses_garbage(tmp_path, suffix, kind):
 
 @pytest.mark.parametrize(
     "spans",
-    [(4, 4, 4), (2**30, 2**30, 2**30), (2**40, 3, 2**20), (2**61, 2**61, 5), (1, 1, 1)],
+    [
+        (4, 4, 4),
+        (2**30, 2**30, 2**30),
+        (2**40, 3, 2**20),
+        (2**10, 2**60, 3),
+        (2**61, 2**61, 5),
+        (1, 1, 1),
+    ],
 )
 def test_unique_rows_is_numpys_unique(spans) -> None:
     # the vertex merge's own row dedup gives exactly np.unique(axis=0)'s first indices and
@@ -251,6 +258,20 @@ def test_unique_rows_is_numpys_unique(spans) -> None:
     f, inv = unique_rows(q)
     assert np.array_equal(f, first)
     assert np.array_equal(inv, inverse.ravel())
+    f2, inv2 = unique_rows(q, (q.min(axis=0), q.max(axis=0)))  # bounds handed over
+    assert np.array_equal(f2, first) and np.array_equal(inv2, inverse.ravel())
+
+
+def test_intake_merge_bounds_are_the_rounded_columns_extremes() -> None:
+    # the merge takes its key ranges from the rounded extremes instead of scanning the rounded
+    # coordinates: rounding a product is monotone, so they must be the same integers
+    rng = np.random.default_rng(9)
+    for scale in (1.0, 25.4, 1000.0):
+        v = rng.normal(0.0, 300.0, (4000, 3))
+        grid = 1.0 / (float(np.linalg.norm(np.ptp(v * scale, axis=0))) * 1e-9)
+        q = np.rint(v * scale * grid).astype(np.int64)
+        lo = np.array([v[:, j].min() for j in range(3)]) * scale
+        assert np.array_equal(np.rint(lo * grid).astype(np.int64), q.min(axis=0))
 
 
 @pytest.mark.parametrize("up", [(0.0, 0.0, 1.0), (0.0, 0.0, -1.0)])
