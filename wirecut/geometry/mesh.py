@@ -625,7 +625,12 @@ def _build(
     first, inv = unique_rows(q, bounds)
     vertices = vertices[first]
     faces = inv[faces]
-    # drop degenerate and duplicate faces
+    # drop degenerate and duplicate faces (the duplicates are sorted out in a thread: numpy's
+    # sorts and loops let the interpreter go)
+    from wirecut.workers import threaded
+
+    merged_faces, n_merged = faces, len(vertices)
+    duplicate = threaded(lambda: _repeated_faces(merged_faces, n_merged))
     e01, e02 = _face_edges(vertices, faces)
     area2 = np.linalg.norm(cross(e01, e02), axis=1)
     sides = (e01, e02 - e01, e02)
@@ -634,7 +639,7 @@ def _build(
         (faces[:, 0] == faces[:, 1]) | (faces[:, 1] == faces[:, 2]) | (faces[:, 0] == faces[:, 2])
     )
     keep = ~repeated & (area2 > 1e-12 * longest2) & (area2 > 0.0)
-    keep &= ~_repeated_faces(faces, len(vertices))
+    keep &= ~duplicate.result()
     faces = faces[keep]
     if len(faces) == 0:
         raise MeshError(f"{label} has zero total area (every face is degenerate)")
@@ -653,12 +658,17 @@ def _build(
             )
         )
 
+    # the faces' doubled-area normals as given are worked out in a thread meanwhile: they
+    # stand when the winding was consistent already (most meshes)
+    given_faces, given_vertices = faces, vertices
+    given = threaded(lambda: cross(*_face_edges(given_vertices, given_faces)))
     faces, comp, table = _orient_consistently(faces, len(vertices))
+    doubled = given.result()
+    if not np.array_equal(faces, given_faces):
+        doubled = cross(*_face_edges(vertices, faces))
     counts = table.counts
     w = waste_direction(job.mold.up, job.mold.side)
     closed = bool((counts == 2).all())
-    e01, e02 = _face_edges(vertices, faces)
-    doubled = cross(e01, e02)
     if closed:
         signed_volume = np.einsum("ij,ij->i", vertices[faces[:, 0]], doubled).sum() / 6.0
         if signed_volume < 0:
