@@ -48,7 +48,8 @@ from wirecut.geometry.vectors import cross
 
 __all__ = ["Curvature", "vertex_curvature", "angle_defects", "mixed_areas", "tangent_frames"]
 
-_CHUNK = 10_000  # vertices per batch of the quadric fit
+_CHUNK = 2_500  # vertices per batch of the quadric fit (its tables stay in the cache)
+_FORK_VERTICES = 20_000  # a fit of fewer vertices stays in this process
 _NP = 9  # coefficients of the cubic height fit
 # exponents (a, b) of its monomials u^a v^b, in coefficient order
 _EXPONENTS = ((2, 0), (1, 1), (0, 2), (1, 0), (0, 1), (3, 0), (2, 1), (1, 2), (0, 3))
@@ -58,6 +59,8 @@ _EXP_B = np.array([b for _, b in _EXPONENTS])
 # moment (a, b) indices of each normal-equation entry (i, j): u^(ai + aj) v^(bi + bj)
 _PAIR_A = _EXP_A[:, None] + _EXP_A[None, :]
 _PAIR_B = _EXP_B[:, None] + _EXP_B[None, :]
+# the right-hand side's rows grouped by the power of u in their monomial
+_RHS_ROWS = tuple((a, np.flatnonzero(_EXP_A == a)) for a in range(4))
 
 
 @dataclass(frozen=True, eq=False)
@@ -110,8 +113,9 @@ class Curvature:
         return (self.k1 * c * c + self.k2 * s * s) / r2
 
 
-def _corner_angles(tri: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Interior angle (m, 3) radians at each corner of triangles (m, 3, 3), and their areas (m,).
+def _corner_angles(tri: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Interior angle (m, 3) radians at each corner of triangles (m, 3, 3), their areas (m,),
+    and the squared length (m, 3) of the edge opposite each corner.
 
     Any two edges of a triangle span twice its area, so one cross product gives the sine part
     of all three angles: ``angle = atan2(2 A, -e_in . e_out)``."""
@@ -127,7 +131,8 @@ def _corner_angles(tri: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         return u[:, 0] * v[:, 0] + u[:, 1] * v[:, 1] + u[:, 2] * v[:, 2]
 
     ang = np.arctan2(twice[:, None], -np.column_stack([dot(a, c), dot(b, a), dot(c, b)]))
-    return ang, 0.5 * twice
+    opposite2 = np.column_stack([dot(b, b), dot(c, c), dot(a, a)])
+    return ang, 0.5 * twice, opposite2
 
 
 def angle_defects(vertices: np.ndarray, faces: np.ndarray, angles=None) -> np.ndarray:
@@ -148,16 +153,7 @@ def mixed_areas(vertices: np.ndarray, faces: np.ndarray, angles=None) -> np.ndar
     obtuse triangle: half its area to the obtuse corner, a quarter to each other corner.
     ``angles`` is :func:`_corner_angles` of the faces when known.
     """
-    tri = vertices[faces]
-    ang, area = angles if angles is not None else _corner_angles(tri)
-    # squared length of the edge opposite each corner
-    opp2 = np.column_stack(
-        [
-            ((tri[:, 2] - tri[:, 1]) ** 2).sum(1),
-            ((tri[:, 0] - tri[:, 2]) ** 2).sum(1),
-            ((tri[:, 1] - tri[:, 0]) ** 2).sum(1),
-        ]
-    )
+    ang, area, opp2 = angles if angles is not None else _corner_angles(vertices[faces])
     cot = 1.0 / np.tan(np.clip(ang, 1e-12, np.pi - 1e-12))
     # corner i gets (|edge opp j|^2 cot j + |edge opp k|^2 cot k) / 8 for the other corners j, k
     vor = (
@@ -189,24 +185,57 @@ def tangent_frames(normals: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return t1, t2
 
 
-def _two_ring(faces: np.ndarray, n: int) -> sparse.csr_matrix:
-    """Sparse (n, n) pattern of the 2-ring neighbourhood of each vertex (self excluded): a
-    one for each neighbour, so that ``ring @ x`` sums x over the ring."""
-    i = faces[:, [0, 1, 2, 1, 2, 0]].ravel()
-    j = faces[:, [1, 2, 0, 0, 1, 2]].ravel()
+def _two_ring(edges: np.ndarray, n: int) -> sparse.csr_matrix:
+    """Sparse (n, n) pattern of the 2-ring neighbourhood of each vertex (self excluded), from
+    the mesh's unique undirected edges (e, 2): a one for each neighbour, so that ``ring @ x``
+    sums x over the ring, and each row's neighbours in ascending order.
+
+    The 2-ring is the pattern of ``A @ A`` for the 1-ring adjacency A, the diagonal removed:
+    every edge of a triangle mesh lies on a triangle, so its two ends are also joined by a
+    path of two edges and the 1-ring is already inside ``A @ A``."""
+    i = np.concatenate([edges[:, 0], edges[:, 1]])
+    j = np.concatenate([edges[:, 1], edges[:, 0]])
     one = sparse.csr_matrix((np.ones(len(i), np.float32), (i, j)), shape=(n, n))
-    one.data[:] = 1.0
-    two = one + one @ one
+    two = one @ one
     two.setdiag(0)
     two.eliminate_zeros()
     two.sort_indices()
-    two = two.tocsr()
     two.data[:] = 1.0
     return two
 
 
-def _fit_chunk(vertices, normals, t1, t2, indptr, indices, start: int, stop: int) -> np.ndarray:
+def cholesky_solve(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Solve ``a[:, :, k] x[:, k] = b[:, k]`` for a stack of symmetric positive definite systems.
+
+    ``a`` (n, n, m) is read in its lower triangle only and overwritten with the Cholesky factor
+    L (``a = L L^T``, the Cholesky-Banachiewicz order, row by row; Golub and Van Loan, *Matrix
+    Computations*, sec. 4.2); ``b`` is (n, m). Each step works on all m systems at once, along
+    the last axis, so a stack of many small systems costs a few array operations per entry
+    instead of a LAPACK call per system (``numpy.linalg.solve`` loops over the stack). A pivot
+    that rounding drives to zero or below is held at 1e-300, so a singular system gives large
+    but finite numbers, not NaN.
+    """
+    n = a.shape[0]
+    for j in range(n):
+        pivot = a[j, j] - np.einsum("km,km->m", a[j, :j], a[j, :j])
+        pivot = np.sqrt(np.maximum(pivot, 1e-300))
+        a[j, j] = pivot
+        if j + 1 < n:
+            below = a[j + 1 :, j] - np.einsum("ikm,km->im", a[j + 1 :, :j], a[j, :j])
+            a[j + 1 :, j] = below / pivot
+    y = np.empty_like(b)
+    for i in range(n):  # L y = b
+        y[i] = (b[i] - np.einsum("km,km->m", a[i, :i], y[:i])) / a[i, i]
+    x = np.empty_like(b)
+    for i in range(n - 1, -1, -1):  # L^T x = y
+        x[i] = (y[i] - np.einsum("km,km->m", a[i + 1 :, i], x[i + 1 :])) / a[i, i]
+    return x
+
+
+def _fit_chunk(columns, normals, t1, t2, indptr, indices, start: int, stop: int) -> np.ndarray:
     """Coefficients (stop - start, 9) of the height fits of vertices start..stop-1.
+
+    ``columns`` holds the vertices' x, y and z as three contiguous (n,) arrays.
 
     Each vertex's first ``_MAX_RING`` neighbours (in ring order) are laid out as one column of
     an (r, m) table, r the chunk's largest count; a short column is padded with the vertex
@@ -220,35 +249,45 @@ def _fit_chunk(vertices, normals, t1, t2, indptr, indices, start: int, stop: int
     at = np.minimum(indptr[start:stop][None, :] + pos, max(len(indices) - 1, 0))
     own = np.arange(start, stop)[None, :]
     table = np.where(pos < count[None, :], indices[at], own) if len(indices) else own[:0]
-    d = vertices[table] - vertices[start:stop][None]  # (r, m, 3), zero where padded
-    u = np.einsum("rmk,mk->rm", d, t1[start:stop])
-    v = np.einsum("rmk,mk->rm", d, t2[start:stop])
-    h = np.einsum("rmk,mk->rm", d, normals[start:stop])
+    # offsets (r, m) per coordinate, zero where padded, and their components in the frame
+    dx, dy, dz = (col[table] - col[start:stop] for col in columns)
+
+    def component(axis: np.ndarray) -> np.ndarray:
+        a = axis[start:stop]
+        return dx * a[:, 0] + dy * a[:, 1] + dz * a[:, 2]
+
+    u, v, h = component(t1), component(t2), component(normals)
     # scale each vertex's coordinates by its neighbourhood size for conditioning
     scale = np.sqrt((u * u + v * v).sum(axis=0))
     scale = np.where(scale > 0, scale / np.sqrt(np.maximum(count, 1)), 1.0)
     inv = 1.0 / scale
     us, vs, hs = u * inv, v * inv, h * inv
     # the normal equations are sums over the neighbours of products of monomials u^a v^b:
-    # the moments sum u^a v^b (a, b <= 6) and the sums h u^a v^b (a, b <= 3)
+    # the moments sum u^a v^b (a + b <= 6) and the sums h u^a v^b of the nine monomials
     pu = np.empty((7, r, m))
     pv = np.empty((7, r, m))
     pu[0] = pv[0] = 1.0
     for k in range(1, 7):
         np.multiply(pu[k - 1], us, out=pu[k])
         np.multiply(pv[k - 1], vs, out=pv[k])
-    moment = np.einsum("arm,brm->abm", pu, pv, optimize=True)  # (7, 7, m)
-    ata = np.ascontiguousarray(moment[_PAIR_A, _PAIR_B].transpose(2, 0, 1))  # (m, 9, 9)
-    hmoment = np.einsum("arm,brm->abm", pu[:4] * hs, pv[:4], optimize=True)  # (4, 4, m)
-    atb = np.ascontiguousarray(hmoment[_EXP_A, _EXP_B].T)  # (m, 9)
+    moment = np.zeros((7, 7, m))
+    for a in range(7):
+        moment[a, : 7 - a] = np.einsum("rm,brm->bm", pu[a], pv[: 7 - a])
+    atb = np.empty((_NP, m))
+    for a, rows in _RHS_ROWS:
+        hm = np.einsum("rm,brm->bm", pu[a] * hs, pv[: 4 - a])
+        atb[rows] = hm[_EXP_B[rows]]
+    ata = moment[_PAIR_A, _PAIR_B]  # (9, 9, m), a fresh array
     few = count < 12
-    ata[few, 5:, :] = 0.0
-    ata[few, :, 5:] = 0.0
-    ata[few, 5:, 5:] = np.eye(_NP - 5)
-    atb[few, 5:] = 0.0
+    ata[5:, :, few] = 0.0
+    ata[:, 5:, few] = 0.0
+    atb[5:, few] = 0.0
+    for i in range(5, _NP):
+        ata[i, i, few] = 1.0  # the cubic terms fixed at zero
     # a tiny ridge keeps vertices with too few neighbours solvable (they come out flat)
-    ata += 1e-9 * np.eye(_NP)
-    sol = np.linalg.solve(ata, atb[:, :, None])[:, :, 0]
+    diagonal = np.arange(_NP)
+    ata[diagonal, diagonal] += 1e-9
+    sol = cholesky_solve(ata, atb).T
     # h/s = (a s)(u/s)^2 + d (u/s) + (f s^2)(u/s)^3: undo the scaling
     sol[:, :3] /= scale[:, None]
     sol[:, 5:] /= (scale**2)[:, None]
@@ -272,19 +311,20 @@ def _fit_quadrics(
     n = len(vertices)
     t1, t2 = tangent_frames(normals)
     indptr, indices = ring.indptr, ring.indices
+    columns = tuple(np.ascontiguousarray(vertices[:, k]) for k in range(3))
 
     def fit_range(span: tuple[int, int]) -> np.ndarray:
         out = np.zeros((span[1] - span[0], _NP))
         for start in range(span[0], span[1], _CHUNK):
             stop = min(span[1], start + _CHUNK)
             out[start - span[0] : stop - span[0]] = _fit_chunk(
-                vertices, normals, t1, t2, indptr, indices, start, stop
+                columns, normals, t1, t2, indptr, indices, start, stop
             )
         return out
 
     # independent per vertex: a large mesh is fitted in runs, all but the first in worker
     # processes; the first (smaller, as this process has ``meanwhile`` to do too) here
-    runs = worker_count() if n >= 2 * _CHUNK else 1
+    runs = worker_count() if n >= _FORK_VERTICES else 1
     share = np.r_[0.0, 0.5, np.full(runs - 1, 1.0)] if runs > 1 else np.r_[0.0, 1.0]
     edges = np.rint(n * np.cumsum(share) / share.sum()).astype(int)
     spans = [(int(a), int(b)) for a, b in zip(edges[:-1], edges[1:], strict=True)]
@@ -316,7 +356,7 @@ def vertex_curvature(target: TargetSurface, after_fit=None) -> Curvature:
     v, f = target.vertices, target.faces
     n = len(v)
     normals = target.vertex_normals
-    ring = _two_ring(f, n)
+    ring = _two_ring(target.edge_table.edges, n)
     angle: dict[str, np.ndarray] = {}
 
     def angles() -> None:  # the defect curvature, while the quadrics are fitted
