@@ -77,3 +77,32 @@ def test_the_scale_bar_hides_no_sample_and_the_x_axis_has_a_label(size):
     _, lowest = picture.ax.transData.transform((850.0, 600.0))
     assert box.y1 <= lowest + 0.5
     assert len(picture.ax.get_xticks()) >= 1
+
+
+@pytest.mark.parametrize("size", [(70.0, 600.0), (400.0, 600.0), (1000.0, 300.0)])
+def test_a_narrow_piece_gets_a_narrow_picture_with_nothing_cut_off(size):
+    from wirecut.export.palette import DeviationPicture
+
+    w, h = size
+    rng = np.random.default_rng(5)
+    xy = rng.random((3000, 2)) * [w, h] + [850.0, 600.0]
+    picture = DeviationPicture(0.5, (5.0, 3.6), (0.16, 0.9, 0.15, 0.9), "mm", cells=100)
+    for _ in range(2):  # the second drawing starts from the first one's layout
+        picture.show(xy, rng.normal(0, 0.2, len(xy)), title="P01: deviation")
+        picture.fig.canvas.draw()
+    renderer = picture.fig.canvas.get_renderer()
+    fig_w = picture.fig.bbox.width
+    drawn = picture.ax.get_window_extent(renderer)  # the axes after the equal aspect
+    bar = picture._bar_ax.get_window_extent(renderer)
+    title = picture.ax.title.get_window_extent(renderer)
+    assert picture.fig.get_size_inches()[0] <= 5.0 + 1e-9
+    # the data fill the width the layout gave the axes, unless that is the narrowest width
+    # (0.9 in) or the title's
+    box = picture.ax.get_position(original=True).width * fig_w
+    assert drawn.width >= box - 1.0 or box <= max(0.9 * picture.fig.dpi, title.width) + 1.0
+    # the colour bar lies right of the data, close to them, and inside the figure
+    assert drawn.x1 <= bar.x0 <= drawn.x1 + 0.6 * picture.fig.dpi
+    assert bar.x1 <= fig_w
+    assert 0.0 <= title.x0 and title.x1 <= fig_w
+    if w < h / 2:  # a narrow piece: a picture well under the widest
+        assert picture.fig.get_size_inches()[0] < 4.0

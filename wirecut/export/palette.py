@@ -179,9 +179,21 @@ class DeviationPicture:
         self.cells = int(cells)
         self.fig = Figure(figsize=size_in, dpi=100)
         FigureCanvasAgg(self.fig)
+        # the layout in inches: the margins' room on the left, the colour bar's block on the
+        # right (a fifth of the space between the margins, as matplotlib's own colour bar
+        # layout gives it), the height fixed; the width in between is the data's (fit_width)
+        width, height = size_in
         left, right, bottom, top = margins
-        self.fig.subplots_adjust(left=left, right=right, bottom=bottom, top=top)
-        ax = self.ax = self.fig.add_subplot(1, 1, 1)
+        between = (right - left) * width
+        self._height_in = float(height)
+        self._rows = (float(bottom), float(top))
+        self._left_in = left * width
+        self._bar_block_in = (1.0 - right) * width + 0.2 * between
+        self._bar_pad_in = 0.05 * between
+        self._widest_in = 0.8 * between
+        ax = self.ax = self.fig.add_axes((0.0, bottom, 1.0, top - bottom))
+        ax.set_anchor("C")
+        self._bar_ax = self.fig.add_axes((0.0, bottom, 0.01, top - bottom))
         opts = {"origin": "lower", "interpolation": "nearest"}
         self.grey = ax.imshow(np.zeros((1, 1, 4)), **opts)
         self.image = ax.imshow(
@@ -190,12 +202,28 @@ class DeviationPicture:
             norm=deviation_norm(tolerance_mm),
             **opts,
         )
-        bar = self.fig.colorbar(self.image, ax=ax, shrink=0.85, extend="both")
+        bar = self.fig.colorbar(self.image, cax=self._bar_ax, extend="both")
         bar.set_label(bar_label)
         ax.set_aspect("equal")
         ax.set_xlabel("plan x (mm, part frame)")
         ax.set_ylabel("plan y (mm, part frame)")
         self._drawn: list = []
+        self._fit_width(self._widest_in)
+
+    def _fit_width(self, axes_in: float) -> None:
+        """Size the figure to axes ``axes_in`` inches wide (the colour bar beside them)."""
+        bottom, top = self._rows
+        axes_in = max(float(axes_in), _NARROWEST_IN)
+        width = self._left_in + axes_in + self._bar_block_in
+        self.fig.set_size_inches(width, self._height_in)
+        self.ax.set_position((self._left_in / width, bottom, axes_in / width, top - bottom))
+        # the bar: 85 % of the axes' height, one twentieth of that wide, beside the axes
+        tall = 0.85 * (top - bottom)
+        wide_in = tall * self._height_in / 20.0
+        at_in = self._left_in + axes_in + self._bar_pad_in
+        self._bar_ax.set_position(
+            (at_in / width, bottom + 0.5 * (top - bottom - tall), wide_in / width, tall)
+        )
 
     def show(self, xy, signed, outlines=(), labels=None, title: str = "") -> None:
         """Draw samples ``xy (n, 2)`` mm with deviations ``signed (n,)`` mm, the outlines
@@ -234,11 +262,12 @@ class DeviationPicture:
                         cx, cy, label, ha="center", va="center", fontsize=9, weight="bold", bbox=box
                     )  # fmt: skip
                 )
-        # the axes keep the data's aspect inside the box the layout gives them (the box before
-        # any earlier picture's aspect shrank it): a narrow piece is drawn narrow
-        box = ax.get_position(original=True)
-        w_in, h_in = self.fig.get_size_inches()
-        w_px, h_px = box.width * w_in * self.fig.dpi, box.height * h_in * self.fig.dpi
+        # the data keep their aspect within the widest axes the layout allows and the fixed
+        # height; the figure is then made as wide as the data drawn need (a narrow piece gets
+        # a narrow picture, not a wide one half empty)
+        dpi = self.fig.dpi
+        bottom, top = self._rows
+        w_px, h_px = self._widest_in * dpi, (top - bottom) * self._height_in * dpi
         dx, dy = max(x1 - x0, 1e-9), max(y1 - y0, 1e-9)
         # a band below the data holds the scale bar, so that it never hides a sample
         band = 0.0
@@ -246,8 +275,13 @@ class DeviationPicture:
             band = _BAR_BAND_PX / min(w_px / dx, h_px / (dy + band))
         ax.set_xlim(x0, x1)
         ax.set_ylim(y0 - band, y1)
+        shown = min(w_px, h_px * dx / (dy + band)) / dpi
+        # the title is centred over the axes and must stay inside the figure
+        ax.set_title(title)
+        title_in = ax.title.get_window_extent(self.fig.canvas.get_renderer()).width / dpi
+        room = 2.0 * min(self._left_in, self._bar_block_in) - 0.3
+        self._fit_width(max(shown, title_in - room))
         # as many x ticks as labels of four or five digits fit across the drawn width
-        shown = min(w_px, h_px * dx / (dy + band)) / self.fig.dpi
         step = _round_up(dx / max(int(shown / 0.6), 1))
         ticks = np.arange(np.ceil(x0 / step), x1 / step + 1e-9) * step
         while len(ticks) == 0:  # a narrow piece between two round values: a finer step
@@ -269,7 +303,6 @@ class DeviationPicture:
         )
         ax.add_artist(sizebar)
         self._drawn.append(sizebar)
-        ax.set_title(title)
 
     def save(self, path) -> None:
         """Write the picture as PNG (no software tag, no time: the same bytes every run)."""
@@ -278,6 +311,9 @@ class DeviationPicture:
 
 #: Height (pixels) of the band kept free under a picture's data for its scale bar.
 _BAR_BAND_PX = 30.0
+#: Narrowest axes (inches) of a picture: room for an x tick label or two (the title may
+#: reach over the margins).
+_NARROWEST_IN = 0.9
 
 
 def _round_up(x: float) -> float:
