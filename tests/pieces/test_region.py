@@ -61,3 +61,27 @@ def test_kept_volume_with_shared_polygons_is_the_same():
     keep = shapely.contains_xy(region.difference(hole), x, y)
     expected = float(np.sum((50.0 + 0.001 * x * y - base)[keep]))
     assert alone == pytest.approx(expected, rel=1e-3)
+
+
+def test_candidate_edges_from_the_edge_table_are_those_of_a_fresh_sort():
+    from wirecut.geometry.mesh import edge_table
+    from wirecut.pieces.region import candidate_edges
+
+    rng = np.random.default_rng(11)
+    n = 12
+    g = np.arange(n * n).reshape(n, n)
+    a, b, c, d = g[:-1, :-1].ravel(), g[:-1, 1:].ravel(), g[1:, :-1].ravel(), g[1:, 1:].ravel()
+    faces = np.concatenate([np.column_stack([a, b, d]), np.column_stack([a, d, c])])
+    faces = faces[rng.permutation(len(faces))[: len(faces) - 9]]  # a few holes: boundary
+    signed = rng.choice([-1.0, 0.0, 1.0, 2.0], size=len(faces), p=[0.1, 0.05, 0.45, 0.4])
+    fresh = candidate_edges(faces, signed)
+    shared = candidate_edges(faces, signed, edge_table(faces, n * n))
+    assert np.array_equal(fresh, shared) and len(fresh) > 0
+    # brute force: boundary edges and edges whose faces differ in sign or lie edge-on
+    seen: dict[tuple[int, int], list[float]] = {}
+    for f, s in zip(faces, np.sign(signed), strict=True):
+        for i in range(3):
+            e = tuple(sorted((int(f[i]), int(f[(i + 1) % 3]))))
+            seen.setdefault(e, []).append(s)
+    want = sorted(e for e, s in seen.items() if len(s) == 1 or min(s) != max(s) or min(s) == 0)
+    assert [tuple(e) for e in fresh.tolist()] == want

@@ -23,6 +23,7 @@ from shapely.geometry import MultiPolygon, Polygon
 from shapely.geometry.base import BaseGeometry
 
 from wirecut.geometry.frames import DirectionFrame, plan_basis
+from wirecut.geometry.plan_shapes import triangle_polygons
 from wirecut.geometry.vectors import cross
 
 __all__ = [
@@ -45,7 +46,7 @@ def _plan_triangles(vertices: np.ndarray, faces: np.ndarray, up: np.ndarray) -> 
     return uv[np.asarray(faces, int)]
 
 
-def candidate_edges(faces: np.ndarray, signed_area: np.ndarray) -> np.ndarray:
+def candidate_edges(faces: np.ndarray, signed_area: np.ndarray, table=None) -> np.ndarray:
     """Edges (e, 2) int that may carry the footprint's boundary.
 
     Parameters
@@ -54,35 +55,36 @@ def candidate_edges(faces: np.ndarray, signed_area: np.ndarray) -> np.ndarray:
         Triangle vertex indices.
     signed_area : (m,) float, mm^2
         Signed plan area of each triangle (positive counter-clockwise in the plan basis).
+    table : EdgeTable, optional
+        The faces' :func:`wirecut.geometry.mesh.edge_table`, when known (the target keeps
+        one): its grouping is used instead of sorting the edges again.
 
     Returns
     -------
     (e, 2) int
         Boundary edges (used by one face) and fold edges (two faces whose plan orientations
-        differ in sign, or one of them is degenerate in plan).
+        differ in sign, or one of them is degenerate in plan), smaller index first, in
+        lexicographic order.
     """
-    f = np.asarray(faces, int)
-    edges = np.concatenate([f[:, [0, 1]], f[:, [1, 2]], f[:, [2, 0]]])
-    owner = np.tile(np.arange(len(f)), 3)
-    key = np.sort(edges, axis=1)
-    order = np.lexsort((key[:, 1], key[:, 0]))
-    key, owner = key[order], owner[order]
-    same_as_next = np.all(key[1:] == key[:-1], axis=1)
-    start = np.concatenate([[True], ~same_as_next])
-    group = np.cumsum(start) - 1
-    counts = np.bincount(group)
-    sign = np.sign(np.round(signed_area, 12))[owner]
-    gmin = np.full(counts.size, 2.0)
-    gmax = np.full(counts.size, -2.0)
-    np.minimum.at(gmin, group, sign)
-    np.maximum.at(gmax, group, sign)
-    keep = (counts == 1) | (gmin != gmax) | (gmin == 0)
-    first = np.flatnonzero(start)
-    return key[first[keep]]
+    if table is None:
+        from wirecut.geometry.mesh import edge_table
+
+        table = edge_table(np.asarray(faces, np.int64), int(np.max(faces, initial=-1)) + 1)
+    if len(table.edges) == 0:
+        return np.zeros((0, 2), np.int64)
+    sign = np.sign(np.round(signed_area, 12))[table.order // 3]
+    gmin = np.minimum.reduceat(sign, table.first)
+    gmax = np.maximum.reduceat(sign, table.first)
+    keep = (table.counts == 1) | (gmin != gmax) | (gmin == 0)
+    return table.edges[keep]
 
 
 def footprint(
-    vertices: np.ndarray, faces: np.ndarray, up: np.ndarray, tree: shapely.STRtree | None = None
+    vertices: np.ndarray,
+    faces: np.ndarray,
+    up: np.ndarray,
+    tree: shapely.STRtree | None = None,
+    table=None,
 ) -> BaseGeometry:
     """The target's plan-view footprint: union of its projected triangles.
 
@@ -95,6 +97,8 @@ def footprint(
     tree : shapely.STRtree, optional
         A tree of every face's plan triangle, in face order, when the caller has one (building
         a million shapely triangles is most of this function's time).
+    table : EdgeTable, optional
+        The faces' edge table, when known (see :func:`candidate_edges`).
 
     Returns
     -------
@@ -110,7 +114,7 @@ def footprint(
     e1, e2, _ = plan_basis(up)
     v = np.asarray(vertices, float)
     uv = np.column_stack([v @ e1, v @ e2])
-    edges = candidate_edges(faces, signed)
+    edges = candidate_edges(faces, signed, table)
     if len(edges) == 0:
         return Polygon()
     lines = shapely.linestrings(uv[edges])
@@ -121,7 +125,7 @@ def footprint(
     probes = shapely.point_on_surface(cells)
     good = signed != 0.0
     if tree is None:
-        tree = shapely.STRtree(shapely.polygons(tri[good]))
+        tree = shapely.STRtree(triangle_polygons(tri[good]))
         hit = tree.query(probes, predicate="intersects")
     else:  # every face is in the caller's tree: keep the hits on faces with a plan area
         hit = tree.query(probes, predicate="intersects")
@@ -245,7 +249,7 @@ def kept_volume_mm3(
         return 0.0
     idx = np.flatnonzero(ok)
     area_all = np.abs(signed)
-    polys = shapely.polygons(tri[idx]) if polygons is None else np.asarray(polygons)[idx]
+    polys = triangle_polygons(tri[idx]) if polygons is None else np.asarray(polygons)[idx]
     shapely.prepare(region)
     inside = shapely.contains(region, polys)
     touch = shapely.intersects(region, polys) & ~inside

@@ -35,6 +35,7 @@ from wirecut.config import JobProfile
 from wirecut.errors import JobError
 from wirecut.findings import Finding, Severity
 from wirecut.geometry.frames import DirectionFrame, plan_basis, rigid
+from wirecut.geometry.plan_shapes import collector_paused, triangle_polygons
 from wirecut.pieces.piece import Block, Piece
 from wirecut.pieces.region import (
     extent_along,
@@ -438,9 +439,10 @@ class _PlanFaces:
         e1, e2, _ = plan_basis(up)
         tri = np.column_stack([v @ e1, v @ e2])[f]
         # every face's plan triangle, once: the tree, the footprint and the kept foam share them
-        polygons = shapely.polygons(tri)
-        tree = shapely.STRtree(polygons)
-        fp = footprint(v, f, up, tree=tree)
+        polygons = triangle_polygons(tri)
+        with collector_paused():
+            tree = shapely.STRtree(polygons)
+            fp = footprint(v, f, up, tree=tree, table=getattr(target, "edge_table", None))
         edges = np.linalg.norm(tri - np.roll(tri, 1, axis=1), axis=2)
         return cls(polygons, tree, fp, float(np.median(edges)) if len(edges) else 1.0)
 

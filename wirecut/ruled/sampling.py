@@ -36,6 +36,7 @@ import shapely
 from wirecut.errors import MeshError
 from wirecut.geometry.frames import apply, to_plan
 from wirecut.geometry.plan_grid import PlanGrid
+from wirecut.geometry.plan_shapes import triangle_polygons
 from wirecut.geometry.vectors import cross
 
 __all__ = [
@@ -353,7 +354,7 @@ def _boundary_samples(
         # a cell holds boxes that miss the point: drop those before making polygons
         near = (pts[ip] >= prep.box_lo[it]).all(axis=1) & (pts[ip] <= prep.box_hi[it]).all(axis=1)
         ip, it, tri = ip[near], it[near], tri[near]
-        polys = shapely.polygons(np.concatenate([tri, tri[:, :1]], axis=1))
+        polys = triangle_polygons(tri)
         keep = shapely.intersects(shapely.points(pts[ip]), polys)
         hits.append((ip[keep], it[keep]))
     ip = np.concatenate([h[0] for h in hits]) if hits else np.zeros(0, np.int64)
