@@ -181,7 +181,7 @@ class DeviationPicture:
         FigureCanvasAgg(self.fig)
         # the layout in inches: the margins' room on the left, the colour bar's block on the
         # right (a fifth of the space between the margins, as matplotlib's own colour bar
-        # layout gives it), the height fixed; the width in between is the data's (fit_width)
+        # layout gives it), the height fixed; the width in between is the data's (_fit_width)
         width, height = size_in
         left, right, bottom, top = margins
         between = (right - left) * width

@@ -212,8 +212,8 @@ def cholesky_solve(a: np.ndarray, b: np.ndarray) -> np.ndarray:
     Computations*, sec. 4.2); ``b`` is (n, m). Each step works on all m systems at once, along
     the last axis, so a stack of many small systems costs a few array operations per entry
     instead of a LAPACK call per system (``numpy.linalg.solve`` loops over the stack). A pivot
-    that rounding drives to zero or below is held at 1e-300, so a singular system gives large
-    but finite numbers, not NaN.
+    that rounding drives to zero or below is held at 1e-300 instead of taking the square root
+    of a negative number (the quadric fit's ridge keeps its pivots far above that).
     """
     n = a.shape[0]
     for j in range(n):
