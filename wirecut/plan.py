@@ -128,6 +128,13 @@ class Plan:
         """Terminal summary: the totals, then one line per piece."""
         s = self.summary()
         tol = self.job.tolerance
+        programs = sum(pp.program is not None for pp in self.pieces)
+        # the total covers the pieces with a program only: say so when some have none
+        partial = (
+            f"   ({programs} of {len(self.pieces)} pieces have a program)"
+            if programs < len(self.pieces)
+            else ""
+        )
         lines = [
             f"wirecut plan  (tolerance {tol.surface_mm:g} mm, {tol.policy.value})",
             f"  feasible area      {s['feasible_area_fraction'] * 100:8.1f} %",
@@ -136,15 +143,19 @@ class Plan:
             f"  blocks used        {s['blocks_used']:8d}",
             f"  foam / kept        {s['foam_volume_m3']:8.3f} / {s['kept_volume_m3']:.3f} m^3"
             f"   (waste {s['waste_fraction'] * 100:.1f} %)",
-            f"  machine time       {s['machine_time_s'] / 60:8.1f} min",
+            f"  machine time       {s['machine_time_s'] / 60:8.1f} min{partial}",
             "  piece  stock       max dev   rms     feasible  time",
         ]
         for pp in self.pieces:
             r = pp.deviation
-            t = pp.program.machine_time_s / 60 if pp.program is not None else float("nan")
+            t = (
+                f"{pp.program.machine_time_s / 60:6.1f} min"
+                if pp.program is not None
+                else "no program"
+            )
             lines.append(
                 f"  {pp.piece.id:<6} {pp.piece.stock or '-':<10} {r.max_abs_mm:7.3f} "
-                f"{r.rms_mm:7.3f}   {r.feasible_area_fraction * 100:6.1f} %  {t:6.1f} min"
+                f"{r.rms_mm:7.3f}   {r.feasible_area_fraction * 100:6.1f} %  {t}"
             )
         return lines
 

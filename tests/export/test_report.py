@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import base64
 import io
+import json
 import re
 from html.parser import HTMLParser
 from pathlib import Path
@@ -390,3 +391,16 @@ def test_an_error_meanwhile_is_raised_after_the_workers_end(tmp_path, monkeypatc
     for png in (tmp_path / "report_files").glob("*.png"):
         assert png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
     assert not (tmp_path / "report.html").exists()
+
+
+def test_the_total_machine_time_says_when_pieces_have_no_program(tmp_path):
+    from dataclasses import replace
+
+    data = _data()
+    text = write_report(data, tmp_path / "all").read_text("utf-8")
+    assert "pieces have a program" not in text
+    pj = json.loads(json.dumps(data.plan_json))
+    pj["pieces"][1]["gcode"] = None
+    pj["pieces"][1]["machine_time_s"] = None
+    text = write_report(replace(data, plan_json=pj), tmp_path / "some").read_text("utf-8")
+    assert "1 of 2 pieces have a program (see the findings)" in text

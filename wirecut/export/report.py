@@ -152,6 +152,14 @@ def _cell(value, digits: int, key: str, unit: str = "") -> str:
     return f"<span class='num' data-key='{_E(key)}'{scale}>{_num(value, digits)}</span>{u}"
 
 
+def _programmed_note(pieces: list) -> str:
+    """Where some pieces have no program, how many have one (the total counts only those)."""
+    written = sum(1 for p in pieces if p.get("gcode"))
+    if written == len(pieces):
+        return ""
+    return f"; {written} of {len(pieces)} pieces have a program (see the findings)"
+
+
 def _hms(seconds) -> str:
     if seconds is None:
         return ""
@@ -356,7 +364,8 @@ def _summary(pj: dict) -> str:
         (
             "Machine time, all programs",
             _cell(s.get("machine_time_s"), 0, "summary.machine_time_s", "s")
-            + _E(_hms(s.get("machine_time_s"))),
+            + _E(_hms(s.get("machine_time_s")))
+            + _E(_programmed_note(pj.get("pieces", []))),
         ),
     ]
     body = "".join(f"<tr><th>{_E(k)}</th><td>{v}</td></tr>" for k, v in rows)
