@@ -420,3 +420,35 @@ def test_binary_stl_without_triangles_is_refused(tmp_path):
     path.write_bytes(b" " * 80 + (0).to_bytes(4, "little"))
     with pytest.raises(MeshError, match="empty.stl"):
         load_target(path, JOB)
+
+
+def _dome(tilt_deg: float):
+    """A 2.4 m x 1.6 m dome 200 mm high, turned ``tilt_deg`` about x."""
+    x, y = np.meshgrid(np.linspace(-1200, 1200, 41), np.linspace(-800, 800, 29))
+    z = 200.0 * np.cos(np.pi * x / 2400.0) * np.cos(np.pi * y / 1600.0)
+    v = np.column_stack([x.ravel(), y.ravel(), z.ravel()])
+    i, j = np.meshgrid(np.arange(28), np.arange(40), indexing="ij")
+    a = (i * 41 + j).ravel()
+    f = np.vstack([np.column_stack([a, a + 1, a + 42]), np.column_stack([a, a + 42, a + 41])])
+    t = np.radians(tilt_deg)
+    rot = np.array([[1, 0, 0], [0, np.cos(t), -np.sin(t)], [0, np.sin(t), np.cos(t)]])
+    return v @ rot.T, f, rot
+
+
+@pytest.mark.parametrize("side", [MoldSide.BELOW, MoldSide.ABOVE])
+def test_a_leaning_part_gets_a_hint_for_up(side):
+    job = default_job()
+    job = dataclasses.replace(job, mold=dataclasses.replace(job.mold, side=side))
+    v, f, rot = _dome(30.0)
+    _, findings = target_from_arrays(v, f, job)
+    hint = [x for x in findings if x.code == "tilted-part"]
+    assert len(hint) == 1 and hint[0].severity is Severity.INFO
+    # the hint names the turned dome's axis (its mean normal, by symmetry) as the up
+    up = np.array([float(s) for s in hint[0].message.split("[")[1].split("]")[0].split(",")])
+    want = rot @ np.array([0.0, 0.0, 1.0])
+    assert np.allclose(up, want, atol=2e-3)
+    assert "30 deg" in hint[0].message
+    # the dome as drawn, or turned a little, gets none
+    for tilt in (0.0, 10.0):
+        v, f, _ = _dome(tilt)
+        assert not [x for x in target_from_arrays(v, f, job)[1] if x.code == "tilted-part"]

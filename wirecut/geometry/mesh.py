@@ -66,6 +66,10 @@ ABSURD_EXTENT_MM = 1.0e7
 MAX_TRIANGLES = 2_000_000
 
 _PLAUSIBLE_DIAGONAL_MM = (50.0, 200_000.0)
+# a surface whose mean normal lies further than this from the waste direction, and which
+# turned to it would stand at most this share of its height, gets a hint to set mold.up
+_TILT_HINT_DEG = 15.0
+_TILT_HINT_HEIGHT_SHARE = 0.8
 
 
 @dataclass(frozen=True, eq=False)
@@ -691,6 +695,7 @@ def _build(
         normals = doubled / np.linalg.norm(doubled, axis=1, keepdims=True)
         table = table.rewound(flip)
     face_areas = 0.5 * np.linalg.norm(doubled, axis=1)
+    findings += _tilt_check(vertices, doubled, w, job.mold.side, label)
     target = TargetSurface(
         vertices=vertices,
         faces=faces,
@@ -710,6 +715,38 @@ def _build(
     if target.area_mm2 <= 0.0:
         raise MeshError(f"{label} has zero total area")
     return target, findings
+
+
+def _tilt_check(
+    vertices: np.ndarray, doubled: np.ndarray, waste: np.ndarray, side: MoldSide, label: str
+) -> list[Finding]:
+    """An info finding when the surface leans well away from the profile's up and would be
+    much lower turned to its mean normal: the blanks' height (foam, travel) follows the
+    surface's height along up, and a mesh exported in a building's frame often leans.
+
+    ``doubled`` (m, 3) are the faces' normals times twice their areas, toward the waste side;
+    their sum is along the area-weighted mean normal."""
+    total = doubled.sum(axis=0)
+    length = float(np.linalg.norm(total))
+    if len(vertices) == 0 or length <= 0.0:
+        return []
+    mean = total / length
+    angle = float(np.degrees(np.arccos(np.clip(mean @ waste, -1.0, 1.0))))
+    height_now = float(np.ptp(vertices @ waste))
+    height_then = float(np.ptp(vertices @ mean))
+    if angle <= _TILT_HINT_DEG or height_then > _TILT_HINT_HEIGHT_SHARE * height_now:
+        return []
+    up = mean if MoldSide(side) is MoldSide.BELOW else -mean
+    return [
+        Finding(
+            "tilted-part",
+            f"{label}: the surface's mean normal lies {angle:.0f} deg from the profile's up; "
+            f"with mold.up = [{up[0]:.3f}, {up[1]:.3f}, {up[2]:.3f}] it would stand "
+            f"{height_then:.0f} mm high instead of {height_now:.0f} mm (lower blanks, less "
+            "foam): set it in the job profile if the part may be turned",
+            severity=Severity.INFO,
+        )
+    ]
 
 
 def _units_check(raw_diag: float, unit: Units, label: str) -> list[Finding]:
