@@ -146,3 +146,46 @@ def test_random_folded_grids_never_certify_an_occluded_surface() -> None:
         seen["occluded"] += bool(rays.any())
         assert np.array_equal(occluded_vertices(target), rays)
     assert seen[True] >= 5 and seen[False] >= 5 and seen["occluded"] >= 5, seen
+
+
+def test_points_under_another_sheet_are_occluded_and_only_they() -> None:
+    from wirecut.geometry.occlusion import is_height_field, occluded_points
+
+    # a small disk 200 mm over the middle of a large one: the lower disk's points under it
+    # are occluded (the wire from above meets the upper disk first), the rest are not
+    v, f = _joined(_disk(0.0, 0.0, 100.0, 300.0, n=13), _disk(0.0, 0.0, 300.0, 100.0, n=5))
+    target = _target(v, f)
+    assert not is_height_field(target)
+    rng = np.random.default_rng(2)
+    xy = rng.uniform(-290.0, 290.0, (400, 2))
+    lower = np.flatnonzero(target.vertices[target.faces].mean(axis=1)[:, 2] < 200.0)
+    # the lower disk's face under each point: found by the plan containment of its triangles
+    tri = target.vertices[target.faces[lower]][:, :, :2]
+    own = np.full(len(xy), -1)
+    for k, p in enumerate(xy):
+        d = tri - p
+        cross_z = (
+            d[:, :, 0] * np.roll(d, -1, axis=1)[:, :, 1]
+            - d[:, :, 1] * np.roll(d, -1, axis=1)[:, :, 0]
+        )
+        inside = (cross_z >= -1e-9).all(axis=1) | (cross_z <= 1e-9).all(axis=1)
+        own[k] = lower[np.flatnonzero(inside)[0]]
+    pts = np.column_stack([xy, np.full(len(xy), 100.0)])
+    got = occluded_points(target, pts, own)
+    under = (np.abs(xy) < 100.0 - 1e-6).all(axis=1)
+    clear = (np.abs(xy) > 100.0 + 1e-6).any(axis=1)
+    assert got[under].all() and not got[clear].any()
+    # the upper disk's own points are not occluded by anything
+    top = np.flatnonzero(target.vertices[target.faces].mean(axis=1)[:, 2] > 200.0)
+    up_pts = np.column_stack([rng.uniform(-90, 90, (50, 2)), np.full(50, 300.0)])
+    assert not occluded_points(target, up_pts, np.full(50, top[0])).any()
+
+
+def test_a_height_field_occludes_no_point_and_builds_no_index() -> None:
+    from wirecut.geometry import occlusion
+
+    target = _target(*sphere_cap(2000.0, 400.0, 21))
+    pts = target.vertices[target.faces].mean(axis=1)
+    assert occlusion.is_height_field(target)
+    assert not occlusion.occluded_points(target, pts, np.arange(len(pts))).any()
+    assert target not in occlusion._POINT_INDEX

@@ -252,3 +252,33 @@ def test_a_fine_mesh_is_judged_at_its_curvature_spacing_a_coarse_one_as_before()
     probe = np.column_stack([np.repeat(g, 60), np.tile(g, 60)])
     d, _ = cKDTree(s.plan_xy[inside]).query(probe)
     assert d.max() <= h
+
+
+def test_samples_under_another_part_of_the_surface_are_undercut():
+    # a 600 mm sheet at z = 100 with a 200 mm sheet 200 mm over its middle (a real target, so
+    # that the undercut test by rays from the waste side applies)
+    from wirecut.config import default_job
+    from wirecut.geometry.mesh import target_from_arrays
+
+    def sheet(half, z, n):
+        x, y = np.meshgrid(np.linspace(-half, half, n), np.linspace(-half, half, n))
+        v = np.column_stack([x.ravel(), y.ravel(), np.full(n * n, z)])
+        i, j = np.meshgrid(np.arange(n - 1), np.arange(n - 1), indexing="ij")
+        a = (i * n + j).ravel()
+        f = np.vstack(
+            [np.column_stack([a, a + 1, a + n + 1]), np.column_stack([a, a + n + 1, a + n])]
+        )
+        return v, f
+
+    (v1, f1), (v2, f2) = sheet(300.0, 100.0, 13), sheet(100.0, 300.0, 5)
+    target, _ = target_from_arrays(
+        np.vstack([v1, v2]), np.vstack([f1, f2 + len(v1)]), default_job()
+    )
+    s = sample_target(target, _setup(), spacing_mm=20.0)
+    part = s.plan_xy
+    low = s.points[:, 1] < s.points[:, 1].max() - 100.0  # machine y is the height here
+    under = low & (np.abs(part) < 100.0 - 1e-6).all(axis=1)
+    clear = low & (np.abs(part) > 100.0 + 1e-6).any(axis=1)
+    assert under.sum() > 20 and clear.sum() > 100
+    assert s.undercut[under].all() and not s.undercut[clear].any()
+    assert not s.undercut[~low].any()  # the upper sheet is seen

@@ -62,7 +62,7 @@ from wirecut.config import JobProfile, Policy
 from wirecut.geometry.curvature import Curvature, vertex_curvature
 from wirecut.geometry.frames import plan_basis, to_plan
 from wirecut.geometry.mesh import TargetSurface
-from wirecut.geometry.occlusion import FORK_FACES, plan_and_det, plan_view_injective, vertex_rays
+from wirecut.geometry.occlusion import FORK_FACES, is_height_field, plan_and_det, vertex_rays
 from wirecut.geometry.vectors import cross
 from wirecut.workers import background, threaded, worker_count
 
@@ -245,7 +245,7 @@ def analyse_surface(target: TargetSurface, job: JobProfile) -> SurfaceAnalysis:
     # the curvature is fitted here
     plan_det = plan_and_det(target)
     occluded = None
-    if not plan_view_injective(target, plan_det):
+    if not is_height_field(target, plan_det):
         occluded = background(
             lambda: vertex_rays(target, plan_det), min_size=FORK_FACES, size=len(target.faces)
         )

@@ -7,8 +7,9 @@ test in the part plan (:func:`wirecut.geometry.frames.to_plan` with ``mold.up``)
 (:class:`wirecut.geometry.plan_grid.PlanGrid`); triangles seen edge-on (plan area below 1e-12
 of the extent squared) are vertical and never hit.
 
-Used by the analysis (undercut: the ray from a vertex meets the target again) and by the check
-map (what the wire sees first at every pixel).
+Used by the analysis (undercut: the ray from a vertex meets the target again), by the sampling
+of pieces (a sample under another part of the surface is undercut: :func:`occluded_points`) and
+by the check map (what the wire sees first at every pixel).
 
 Most molds are height fields over the plan: no two points of the surface share a plan position,
 and then no vertex's ray can meet the target again. :func:`plan_view_injective` proves that
@@ -26,6 +27,7 @@ rays cast as before.
 
 from __future__ import annotations
 
+import weakref
 from dataclasses import dataclass
 
 import numpy as np
@@ -36,6 +38,8 @@ from wirecut.geometry.plan_grid import PlanGrid
 
 __all__ = [
     "occluded_vertices",
+    "occluded_points",
+    "is_height_field",
     "vertex_rays",
     "first_hit_faces",
     "plan_view_injective",
@@ -190,9 +194,51 @@ def occluded_vertices(target: TargetSurface) -> np.ndarray:
     has no occluded vertex and casts no ray.
     """
     plan_det = plan_and_det(target)
-    if plan_view_injective(target, plan_det):
+    if is_height_field(target, plan_det):
         return np.zeros(len(target.vertices), bool)
     return vertex_rays(target, plan_det)
+
+
+_HEIGHT_FIELD: weakref.WeakKeyDictionary = weakref.WeakKeyDictionary()
+_POINT_INDEX: weakref.WeakKeyDictionary = weakref.WeakKeyDictionary()
+
+
+def is_height_field(target: TargetSurface, plan_det=None) -> bool:
+    """:func:`plan_view_injective` of the target, worked out once per target (its arrays are
+    taken as fixed)."""
+    hit = _HEIGHT_FIELD.get(target)
+    if hit is None:
+        hit = _HEIGHT_FIELD[target] = bool(plan_view_injective(target, plan_det))
+    return hit
+
+
+def occluded_points(target: TargetSurface, points: np.ndarray, face: np.ndarray) -> np.ndarray:
+    """(k,) bool: points (k, 3) mm on the target's faces ``face`` (k,), part frame, over which
+    another face lies toward the waste side (the wire coming from the waste meets that face
+    first: the point is undercut).
+
+    A face other than the point's own counts when the point lies inside its plan view and it
+    is more than 1e-6 of the extent higher there (a neighbour sharing the point's edge is not).
+    A target proven to be a height field (:func:`is_height_field`) has none and casts nothing;
+    otherwise the plan index is built once per target (before worker processes are forked,
+    :func:`wirecut.ruled.sampling.prepare_sampling`, so that they inherit it).
+    """
+    pts = np.asarray(points, float).reshape(-1, 3)
+    out = np.zeros(len(pts), bool)
+    if len(pts) == 0 or is_height_field(target):
+        return out
+    if target not in _POINT_INDEX:
+        _POINT_INDEX[target] = _PlanIndex.build(target)
+    index = _POINT_INDEX[target]
+    if index is None:
+        return out
+    own = np.asarray(face, np.int64).reshape(-1)
+    height = pts @ target.waste_normal
+    eps = 1e-6 * max(target.extent_mm, 1e-9)
+    for qi, t, h in index.hits(to_plan(pts, target.up)):
+        over = (t != own[qi]) & (h > height[qi] + eps)
+        out[qi[over]] = True
+    return out
 
 
 def vertex_rays(target: TargetSurface, plan_det=None) -> np.ndarray:

@@ -37,6 +37,8 @@ import numpy as np
 from wirecut.config import JobProfile, MoldSide, ToleranceSpec
 from wirecut.errors import JobError
 from wirecut.geometry.frames import DirectionFrame, rigid, to_plan
+from wirecut.geometry.mesh import TargetSurface
+from wirecut.geometry.occlusion import occluded_points
 from wirecut.geometry.vectors import cross
 from wirecut.ruled.fit import fit_cut
 from wirecut.ruled.sampling import TargetSamples, sample_target
@@ -167,11 +169,14 @@ def _coarse_samples(target: Any, frame: DirectionFrame) -> TargetSamples:
     verts = np.asarray(target.vertices, float)[np.asarray(target.faces)[pick]]
     cent = verts.mean(axis=1)
     normals = np.asarray(target.face_normals, float)[pick] @ frame.rotation.T
+    undercut = normals[:, 1] <= 1e-9
+    if isinstance(target, TargetSurface):  # centroids under another part of the surface
+        undercut |= occluded_points(target, cent, pick)
     return TargetSamples(
         points=cent @ frame.rotation.T,
         normals=normals,
         weights=np.full(len(pick), area / len(pick)),
-        undercut=normals[:, 1] <= 1e-9,
+        undercut=undercut,
         plan_xy=to_plan(cent, np.asarray(target.up, float)),
         face=pick,
         spacing_mm=math.sqrt(area / len(pick)),

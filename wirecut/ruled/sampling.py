@@ -35,6 +35,8 @@ import shapely
 
 from wirecut.errors import MeshError
 from wirecut.geometry.frames import apply, to_plan
+from wirecut.geometry.mesh import TargetSurface
+from wirecut.geometry.occlusion import occluded_points
 from wirecut.geometry.plan_grid import PlanGrid
 from wirecut.geometry.plan_shapes import triangle_polygons
 from wirecut.geometry.vectors import cross
@@ -318,9 +320,12 @@ def default_spacing(target: Any, density: float = 1.0) -> float:
 
 
 def prepare_sampling(target: Any) -> None:
-    """Compute once what sampling ``target`` needs (its triangles, plan grid), so that
-    worker processes forked afterwards inherit it instead of each building its own."""
+    """Compute once what sampling ``target`` needs (its triangles, plan grid, and where the
+    target is not proven a height field the plan index of its undercut test), so that worker
+    processes forked afterwards inherit it instead of each building its own."""
     _prepared(target).plan_grid()
+    if isinstance(target, TargetSurface):
+        occluded_points(target, np.zeros((1, 3)), np.zeros(1, np.int64))  # its plan index
 
 
 def _first_seen(ids: np.ndarray, n: int) -> tuple[np.ndarray, np.ndarray]:
@@ -471,11 +476,16 @@ def sample_target(
 
     rot = transform[:3, :3]
     machine_normals = normals[face] @ rot.T
+    # undercut: the face looks away from the wire's approach, or another part of the surface
+    # lies over the sample toward the waste side
+    undercut = machine_normals[:, 1] <= 1e-9
+    if isinstance(target, TargetSurface):
+        undercut |= occluded_points(target, points, face)
     return TargetSamples(
         points=apply(transform, points),
         normals=machine_normals,
         weights=weights,
-        undercut=machine_normals[:, 1] <= 1e-9,
+        undercut=undercut,
         plan_xy=plan,
         face=face,
         spacing_mm=spacing,
