@@ -90,3 +90,45 @@ def test_an_error_meanwhile_reaches_the_caller(tmp_path, monkeypatch):
     with pytest.raises(OSError, match="disk full"):
         write_cuttability_map(target, an, tmp_path / "m.png", JOB.tolerance, meanwhile=fail)
     assert not (tmp_path / "m.png").exists()
+
+
+@pytest.mark.parametrize(
+    "span, narrow, low",
+    [((400.0, 2800.0), True, False), ((3500.0, 3000.0), False, False),
+     ((6000.0, 3000.0), False, True), ((20000.0, 1000.0), False, True)],
+)  # fmt: skip
+def test_the_map_is_sized_to_the_part(span, narrow, low):
+    from wirecut.export.maps import _MAP_HEIGHT_IN, _MAP_WIDE_IN, _map_size
+
+    width, height = _map_size(np.array(span))
+    assert 7.0 <= width <= 13.0 and 4.0 <= height <= _MAP_HEIGHT_IN
+    assert (width < _MAP_WIDE_IN) is narrow
+    assert (height < _MAP_HEIGHT_IN) is low
+    # the two panels at the data's aspect fill the room between the margins, or the size is
+    # held at its bounds
+    aspect = 1.1 * span[0] / (1.23 * span[1])
+    used = 2.0 * (height - 1.5) * aspect + 2.0
+    assert used == pytest.approx(width, rel=1e-9) or width in (7.0, 13.0)
+
+
+def test_undercut_hidden_under_another_sheet_is_marked_in_plan():
+    from wirecut.geometry.occlusion import first_hit_faces
+
+    def disk(z, half, n):
+        x, y = np.meshgrid(np.linspace(-half, half, n), np.linspace(-half, half, n), indexing="ij")
+        return np.column_stack([x.ravel(), y.ravel(), np.full(n * n, z)]), grid_faces(n, n)
+
+    (v1, f1), (v2, f2) = disk(100.0, 300.0, 13), disk(300.0, 100.0, 5)
+    target, _ = target_from_arrays(
+        np.vstack([v1, v2]), np.vstack([f1, f2 + len(v1)]), default_job()
+    )
+    lower = target.vertices[target.faces].mean(axis=1)[:, 2] < 200.0
+    pts = np.array([[0.0, 0.0], [50.0, -60.0], [250.0, 0.0], [0.0, 280.0], [500.0, 0.0]])
+    first, marked = first_hit_faces(target, pts, lower)
+    # the first two lie under the upper sheet: it is met first, the lower one is there too
+    assert not lower[first[:2]].any() and marked[:2].all()
+    # beside it the lower sheet is met first; beyond both, nothing
+    assert lower[first[2:4]].all() and marked[2:4].all()
+    assert first[4] == -1 and not marked[4]
+    # without marked faces the call gives the first faces alone, as before
+    assert np.array_equal(first_hit_faces(target, pts), first)

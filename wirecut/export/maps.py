@@ -72,6 +72,30 @@ def axis_label(vector: np.ndarray) -> str:
     return "part (" + ", ".join(f"{c:.2f}" for c in v) + ")"
 
 
+#: The cuttability map's largest height and width (inches); below the wide width its titles
+#: take two lines.
+_MAP_HEIGHT_IN = 6.4
+_MAP_WIDEST_IN = 13.0
+_MAP_WIDE_IN = 11.0
+_MAP_NARROWEST_IN = 7.0
+_MAP_LOWEST_IN = 4.0
+
+
+def _map_size(span: np.ndarray) -> tuple[float, float]:
+    """Width and height (inches) of the cuttability map for a plan extent ``span`` (2,) mm: two
+    panels of the data's aspect with :func:`_decorate`'s margins (x 1.1, y 1.23 spans), plus
+    about 2 in across for the colour bar and margins and 1.5 in down for the titles and the
+    legend. A tall part narrows the figure at the full height, a wide one lowers it at the
+    full width."""
+    aspect = 1.1 * float(span[0]) / (1.23 * max(float(span[1]), 1e-9))  # panel width / height
+    panel_h = _MAP_HEIGHT_IN - 1.5
+    width = 2.0 * panel_h * aspect + 2.0
+    if width <= _MAP_WIDEST_IN:
+        return float(max(width, _MAP_NARROWEST_IN)), _MAP_HEIGHT_IN
+    panel_w = (_MAP_WIDEST_IN - 2.0) / 2.0
+    return _MAP_WIDEST_IN, float(max(panel_w / aspect + 1.5, _MAP_LOWEST_IN))
+
+
 def _save(fig, path: Path) -> None:
     from matplotlib.backends.backend_agg import FigureCanvasAgg
 
@@ -164,8 +188,13 @@ def write_cuttability_map(
     ys = lo[1] + (np.arange(ny) + 0.5) * span[1] / ny
     gx, gy = np.meshgrid(xs, ys)
     pixels = np.column_stack([gx.ravel(), gy.ravel()])
+    # undercut faces (two or more undercut corners), hatched wherever they lie in plan: most
+    # lie under another part of the surface, hidden from the wire
+    face_under = analysis.undercut[target.faces].sum(axis=1) >= 2
     rays = background(
-        lambda: first_hit_faces(target, pixels), min_size=FORK_FACES, size=len(target.faces)
+        lambda: first_hit_faces(target, pixels, face_under),
+        min_size=FORK_FACES,
+        size=len(target.faces),
     )
     try:
         from matplotlib.colors import BoundaryNorm, ListedColormap
@@ -177,7 +206,8 @@ def write_cuttability_map(
     except BaseException:
         rays.wait()  # no worker is left behind
         raise
-    face = rays.result().reshape(ny, nx)
+    face, hidden_under = rays.result()
+    face, hidden_under = face.reshape(ny, nx), hidden_under.reshape(ny, nx)
     empty = face < 0
     fidx = np.where(empty, 0, face)
 
@@ -185,9 +215,12 @@ def write_cuttability_map(
     votes = np.stack([(kinds == c).sum(axis=1) for c in (DEVELOPABLE, RULED, SYNCLASTIC)], axis=1)
     face_kind = np.argmax(votes, axis=1)
     face_reach = analysis.wire_reach_mm[target.faces].mean(axis=1)
-    face_under = analysis.undercut[target.faces].sum(axis=1) >= 2
 
-    fig = Figure(figsize=(13.0, 6.4), layout="constrained")
+    # as wide and as high as the two panels need (a long narrow part gets a narrow figure,
+    # not two slivers with the width between them empty); titles wrap when narrow
+    width, height = _map_size(span)
+    narrow = width < _MAP_WIDE_IN
+    fig = Figure(figsize=(width, height), layout="constrained")
     axes = fig.subplots(1, 2)
     cmap = ListedColormap([CLASS_COLOURS[c] for c in (DEVELOPABLE, RULED, SYNCLASTIC)])
     norm = BoundaryNorm([-0.5, 0.5, 1.5, 2.5], 3)
@@ -199,31 +232,31 @@ def write_cuttability_map(
         np.ma.masked_array(face_reach[fidx], empty), cmap="cividis", vmin=0.0, vmax=top, **style
     )
     handles = [Patch(color=CLASS_COLOURS[c], label=_CLASS_NAMES[c]) for c in CLASS_COLOURS]
-    under = (face_under[fidx] & ~empty).astype(float)
+    under = (hidden_under & ~empty).astype(float)
     if under.any():
         for ax in axes:
             ax.contourf(gx, gy, under, levels=[0.5, 1.5], colors="none", hatches=["////"])
         handles.append(Patch(facecolor="white", edgecolor="black", hatch="////", label="undercut"))
-    axes[0].legend(
+    fig.legend(  # below both panels, inside the figure whatever its width
         handles=handles,
-        loc="upper center",
-        bbox_to_anchor=(0.5, -0.01),
+        loc="outside lower center",
         ncol=len(handles),
         fontsize=8,
         frameon=False,
     )
     bar = fig.colorbar(pc, ax=axes[1], shrink=0.8)
     bar.set_label("wire reach, mm")
-    axes[0].set_title("surface class (as seen from the waste side)")
+    gap = "\n" if narrow else " "
+    axes[0].set_title(f"surface class{gap}(as seen from the waste side)")
     axes[1].set_title(
-        f"wire reach: longest straight wire within tolerance (cap {analysis.extent_mm:.0f} mm)",
+        f"wire reach: longest straight wire{gap}within tolerance (cap {analysis.extent_mm:.0f} mm)",
         fontsize=10,
     )
     for ax in axes:
         _decorate(ax, plan, target.up)
     summary = analysis.to_json()
     fig.suptitle(
-        f"{target.source}: plan view, {tol_text}; developable "
+        f"{target.source}: plan view, {tol_text};{gap}developable "
         f"{summary['developable_area_fraction'] * 100:.0f} %, ruled "
         f"{summary['ruled_area_fraction'] * 100:.0f} %, synclastic "
         f"{summary['synclastic_area_fraction'] * 100:.0f} %, undercut "

@@ -254,7 +254,9 @@ def vertex_rays(target: TargetSurface, plan_det=None) -> np.ndarray:
     return out
 
 
-def first_hit_faces(target: TargetSurface, plan_xy: np.ndarray) -> np.ndarray:
+def first_hit_faces(
+    target: TargetSurface, plan_xy: np.ndarray, marked: np.ndarray | None = None
+) -> np.ndarray | tuple[np.ndarray, np.ndarray]:
     """(k,) int: the face a ray from the waste side meets first above each plan point; -1 if none.
 
     Parameters
@@ -262,14 +264,21 @@ def first_hit_faces(target: TargetSurface, plan_xy: np.ndarray) -> np.ndarray:
     target : TargetSurface
     plan_xy : (k, 2) float, mm, part plan view (:func:`wirecut.geometry.frames.to_plan` with
         ``mold.up``)
+    marked : (m,) bool, optional
+        Faces of interest (the undercut ones, for the check map): when given, also returned
+        is (k,) bool, whether any marked face lies over the point at any height (hidden under
+        the first face or not).
     """
     pts = np.asarray(plan_xy, float).reshape(-1, 2)
     best = np.full(len(pts), -1, np.int64)
+    covered = np.zeros(len(pts), bool)
     index = _PlanIndex.build(target)
     if index is None:
-        return best
+        return best if marked is None else (best, covered)
     top = np.full(len(pts), -np.inf)
     for qi, t, h in index.hits(pts):
+        if marked is not None:
+            covered[qi[marked[t]]] = True
         order = np.lexsort((h, qi))  # per query, the highest last
         qs, ts, hs = qi[order], t[order], h[order]
         last = np.r_[qs[1:] != qs[:-1], True]
@@ -277,4 +286,4 @@ def first_hit_faces(target: TargetSurface, plan_xy: np.ndarray) -> np.ndarray:
         better = h_last > top[q_last]
         best[q_last[better]] = t_last[better]
         top[q_last[better]] = h_last[better]
-    return best
+    return best if marked is None else (best, covered)
