@@ -452,3 +452,14 @@ def test_a_leaning_part_gets_a_hint_for_up(side):
     for tilt in (0.0, 10.0):
         v, f, _ = _dome(tilt)
         assert not [x for x in target_from_arrays(v, f, job)[1] if x.code == "tilted-part"]
+
+
+def test_units_hint_names_every_plausible_unit_with_its_size():
+    # 2.4 m written in metres reads 2.4 "mm": metres and feet both give a plausible mold
+    v, f, _ = _dome(0.0)
+    _, findings = target_from_arrays(v / 1000.0, f, JOB)
+    warn = [x for x in findings if x.code == "suspicious-units"]
+    assert len(warn) == 1
+    msg = warn[0].message
+    assert "--units m (2.89 m across)" in msg and "--units ft (0.881 m across)" in msg
+    assert "\n" not in msg

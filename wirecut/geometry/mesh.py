@@ -756,11 +756,16 @@ def _units_check(raw_diag: float, unit: Units, label: str) -> list[Finding]:
     if lo <= diag <= hi:
         return []
     fits = [u for u in Units if u is not unit and lo <= raw_diag * u.to_mm <= hi]
-    # prefer the unit giving a size closest (in ratio) to a typical 1.5 m mold
+    # every unit that gives a plausible size, the one closest (in ratio) to a typical 1.5 m
+    # mold first, each with the size it gives: the file alone cannot tell metres from feet
     fits.sort(key=lambda u: abs(np.log(raw_diag * u.to_mm / 1500.0)))
     size = "small" if diag < lo else "large"
     hint = (
-        f"if the file is in {fits[0].value}, pass --units {fits[0].value}"
+        "; ".join(
+            f"if the file is in {u.value}, pass --units {u.value} "
+            f"({raw_diag * u.to_mm / 1000.0:.3g} m across)"
+            for u in fits
+        )
         if fits
         else "no --units choice brings it into range; check the file's scale"
     )
