@@ -59,17 +59,24 @@ def test_isolated_holes_are_filled_but_the_outside_is_not() -> None:
     assert extent[0] == 0.0 and extent[2] == 0.0 and extent[1] <= 118.0 + 4.0
 
 
-@pytest.mark.parametrize("size", [(70.0, 600.0), (130.0, 600.0), (1000.0, 300.0), (3000.0, 150.0)])
-def test_the_scale_bar_hides_no_sample_and_the_x_axis_has_a_label(size):
+def _drawn_twice(size, n, title, seed):
+    """A report-sized picture of n random samples over a w x h mm piece at (850, 600), drawn
+    twice: the second drawing starts from the first one's layout."""
     from wirecut.export.palette import DeviationPicture
 
     w, h = size
-    rng = np.random.default_rng(4)
-    xy = rng.random((4000, 2)) * [w, h] + [850.0, 600.0]
+    rng = np.random.default_rng(seed)
+    xy = rng.random((n, 2)) * [w, h] + [850.0, 600.0]
     picture = DeviationPicture(0.5, (5.0, 3.6), (0.16, 0.9, 0.15, 0.9), "mm", cells=100)
-    for _ in range(2):  # the second drawing starts from the first one's aspect
-        picture.show(xy, rng.normal(0, 0.2, len(xy)), title="piece")
+    for _ in range(2):
+        picture.show(xy, rng.normal(0, 0.2, len(xy)), title=title)
         picture.fig.canvas.draw()
+    return picture
+
+
+@pytest.mark.parametrize("size", [(70.0, 600.0), (130.0, 600.0), (1000.0, 300.0), (3000.0, 150.0)])
+def test_the_scale_bar_hides_no_sample_and_the_x_axis_has_a_label(size):
+    picture = _drawn_twice(size, 4000, "piece", seed=4)
     renderer = picture.fig.canvas.get_renderer()
     bar = next(a for a in picture.ax.artists if a.__class__.__name__ == "AnchoredSizeBar")
     box = bar.get_window_extent(renderer)
@@ -81,15 +88,8 @@ def test_the_scale_bar_hides_no_sample_and_the_x_axis_has_a_label(size):
 
 @pytest.mark.parametrize("size", [(70.0, 600.0), (400.0, 600.0), (1000.0, 300.0)])
 def test_a_narrow_piece_gets_a_narrow_picture_with_nothing_cut_off(size):
-    from wirecut.export.palette import DeviationPicture
-
     w, h = size
-    rng = np.random.default_rng(5)
-    xy = rng.random((3000, 2)) * [w, h] + [850.0, 600.0]
-    picture = DeviationPicture(0.5, (5.0, 3.6), (0.16, 0.9, 0.15, 0.9), "mm", cells=100)
-    for _ in range(2):  # the second drawing starts from the first one's layout
-        picture.show(xy, rng.normal(0, 0.2, len(xy)), title="P01: deviation")
-        picture.fig.canvas.draw()
+    picture = _drawn_twice(size, 3000, "P01: deviation", seed=5)
     renderer = picture.fig.canvas.get_renderer()
     fig_w = picture.fig.bbox.width
     drawn = picture.ax.get_window_extent(renderer)  # the axes after the equal aspect
