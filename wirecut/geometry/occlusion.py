@@ -200,7 +200,14 @@ def occluded_vertices(target: TargetSurface) -> np.ndarray:
 
 
 _HEIGHT_FIELD: weakref.WeakKeyDictionary = weakref.WeakKeyDictionary()
-_POINT_INDEX: weakref.WeakKeyDictionary = weakref.WeakKeyDictionary()
+_INDEX: weakref.WeakKeyDictionary = weakref.WeakKeyDictionary()
+
+
+def _plan_index(target: TargetSurface, plan_det=None) -> _PlanIndex | None:
+    """The target's :class:`_PlanIndex`, built once per target (its arrays taken as fixed)."""
+    if target not in _INDEX:
+        _INDEX[target] = _PlanIndex.build(target, plan_det)
+    return _INDEX[target]
 
 
 def is_height_field(target: TargetSurface, plan_det=None) -> bool:
@@ -220,16 +227,15 @@ def occluded_points(target: TargetSurface, points: np.ndarray, face: np.ndarray)
     A face other than the point's own counts when the point lies inside its plan view and it
     is more than 1e-6 of the extent higher there (a neighbour sharing the point's edge is not).
     A target proven to be a height field (:func:`is_height_field`) has none and casts nothing;
-    otherwise the plan index is built once per target (before worker processes are forked,
+    otherwise the plan index (the one the vertex rays and the check map use too) is built once
+    per target (before worker processes are forked,
     :func:`wirecut.ruled.sampling.prepare_sampling`, so that they inherit it).
     """
     pts = np.asarray(points, float).reshape(-1, 3)
     out = np.zeros(len(pts), bool)
     if len(pts) == 0 or is_height_field(target):
         return out
-    if target not in _POINT_INDEX:
-        _POINT_INDEX[target] = _PlanIndex.build(target)
-    index = _POINT_INDEX[target]
+    index = _plan_index(target)
     if index is None:
         return out
     own = np.asarray(face, np.int64).reshape(-1)
@@ -244,7 +250,7 @@ def occluded_points(target: TargetSurface, points: np.ndarray, face: np.ndarray)
 def vertex_rays(target: TargetSurface, plan_det=None) -> np.ndarray:
     """(n,) bool: :func:`occluded_vertices` by casting every vertex's ray."""
     out = np.zeros(len(target.vertices), bool)
-    index = _PlanIndex.build(target, plan_det)
+    index = _plan_index(target, plan_det)
     if index is None:
         return out
     eps = 1e-6 * max(target.extent_mm, 1e-9)
@@ -272,7 +278,7 @@ def first_hit_faces(
     pts = np.asarray(plan_xy, float).reshape(-1, 2)
     best = np.full(len(pts), -1, np.int64)
     covered = np.zeros(len(pts), bool)
-    index = _PlanIndex.build(target)
+    index = _plan_index(target)
     if index is None:
         return best if marked is None else (best, covered)
     top = np.full(len(pts), -np.inf)

@@ -37,11 +37,9 @@ import numpy as np
 from wirecut.config import JobProfile, MoldSide, ToleranceSpec
 from wirecut.errors import JobError
 from wirecut.geometry.frames import DirectionFrame, rigid, to_plan
-from wirecut.geometry.mesh import TargetSurface
-from wirecut.geometry.occlusion import occluded_points
 from wirecut.geometry.vectors import cross
 from wirecut.ruled.fit import fit_cut
-from wirecut.ruled.sampling import TargetSamples, sample_target
+from wirecut.ruled.sampling import TargetSamples, sample_target, undercut_flags
 from wirecut.workers import pmap
 
 __all__ = [
@@ -169,14 +167,11 @@ def _coarse_samples(target: Any, frame: DirectionFrame) -> TargetSamples:
     verts = np.asarray(target.vertices, float)[np.asarray(target.faces)[pick]]
     cent = verts.mean(axis=1)
     normals = np.asarray(target.face_normals, float)[pick] @ frame.rotation.T
-    undercut = normals[:, 1] <= 1e-9
-    if isinstance(target, TargetSurface):  # centroids under another part of the surface
-        undercut |= occluded_points(target, cent, pick)
     return TargetSamples(
         points=cent @ frame.rotation.T,
         normals=normals,
         weights=np.full(len(pick), area / len(pick)),
-        undercut=undercut,
+        undercut=undercut_flags(target, cent, pick, normals),
         plan_xy=to_plan(cent, np.asarray(target.up, float)),
         face=pick,
         spacing_mm=math.sqrt(area / len(pick)),

@@ -476,20 +476,28 @@ def sample_target(
 
     rot = transform[:3, :3]
     machine_normals = normals[face] @ rot.T
-    # undercut: the face looks away from the wire's approach, or another part of the surface
-    # lies over the sample toward the waste side
-    undercut = machine_normals[:, 1] <= 1e-9
-    if isinstance(target, TargetSurface):
-        undercut |= occluded_points(target, points, face)
     return TargetSamples(
         points=apply(transform, points),
         normals=machine_normals,
         weights=weights,
-        undercut=undercut,
+        undercut=undercut_flags(target, points, face, machine_normals),
         plan_xy=plan,
         face=face,
         spacing_mm=spacing,
     )
+
+
+def undercut_flags(
+    target: Any, points: np.ndarray, face: np.ndarray, machine_normals: np.ndarray
+) -> np.ndarray:
+    """(k,) bool: samples at ``points`` (k, 3) mm, part frame, on faces ``face`` that the wire
+    cannot reach: the face looks away from the wire's approach (machine normal ``n . +y <= 0``)
+    or another part of the target lies over the sample toward the waste side
+    (:func:`wirecut.geometry.occlusion.occluded_points`, for a real target)."""
+    undercut = np.asarray(machine_normals, float)[:, 1] <= 1e-9
+    if isinstance(target, TargetSurface):
+        undercut |= occluded_points(target, points, face)
+    return undercut
 
 
 def judging_spacing(target: Any) -> float:
