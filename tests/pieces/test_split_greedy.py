@@ -169,3 +169,31 @@ def test_ratio_oracle_asks_less_on_a_smooth_surface() -> None:
     plain = greedy_strips(*args, lambda a, b: ratio(a, b) <= 1.0, *lim, guess_mm=200.0)
     assert np.array_equal(aimed.cuts, plain.cuts)
     assert aimed.evaluations < 0.9 * plain.evaluations
+
+
+def test_sweep_limit_keeps_every_blank_inside_a_block_upright():
+    from dataclasses import replace
+
+    from wirecut.config import StockSpec, default_job
+    from wirecut.pieces.split import split_limits, sweep_limit
+
+    job = default_job()
+    job = replace(
+        job,
+        stock=(
+            StockSpec("small", (1000.0, 600.0, 400.0), 3),
+            StockSpec("slab", (800.0, 800.0, 300.0), 1),
+        ),
+    )
+    _, longest = split_limits(job)  # min(x travel - 2 clearances, the longest block side)
+    assert sweep_limit(job, 500.0) == min(1000.0, longest)  # fits "small" lengthwise
+    assert sweep_limit(job, 700.0) == min(800.0, longest)  # too wide for 600: "slab" 800
+    assert sweep_limit(job, 900.0) == min(600.0, longest)  # only "small" across: 600 long
+    assert sweep_limit(job, 1100.0) == longest  # no kind: left to the allocation
+    # every (width, limit) pair fits some kind upright: side by side, each within a side
+    for w in (100.0, 600.0, 650.0, 800.0, 1000.0):
+        big, small = sorted((w, sweep_limit(job, w)), reverse=True)
+        assert any(
+            big <= max(k.size_mm[:2]) + 1e-9 and small <= min(k.size_mm[:2]) + 1e-9
+            for k in job.stock
+        )

@@ -10,6 +10,7 @@ import pytest
 
 from wirecut.config import JobProfile, StockSpec
 from wirecut.errors import JobError
+from wirecut.findings import Severity
 from wirecut.geometry.frames import DirectionFrame
 from wirecut.pieces.piece import Block, Piece
 from wirecut.pieces.stock import allocate, pack
@@ -80,17 +81,30 @@ def test_blank_higher_than_stock_lies_on_its_side() -> None:
     assert any(f.code == "blank-on-side" for f in alloc.findings)
 
 
-def test_blank_larger_than_every_stock_raises() -> None:
+def test_blank_larger_than_every_stock_is_left_out_with_a_finding() -> None:
     job = job_with(StockSpec("small", (1000.0, 800.0, 600.0), 5))
-    with pytest.raises(JobError, match="P01.*fits no stock"):
-        allocate([fake_piece("P01", (1500.0, 900.0, 700.0))], job)
+    pieces = [fake_piece("P01", (1500.0, 900.0, 700.0)), fake_piece("P02", (900.0, 700.0, 500.0))]
+    alloc = allocate(pieces, job)
+    # the other piece is placed; the one no block takes is said, not the whole plan refused
+    assert [pl.piece_id for pl in alloc.placements] == ["P02"] and alloc.blocks_used == 1
+    miss = [f for f in alloc.findings if f.code == "no-stock-block"]
+    assert len(miss) == 1 and miss[0].piece == "P01" and "fits no stock" in miss[0].message
+    assert miss[0].severity is Severity.ATTENTION
+    # the foam bill still counts its blank (1.5 x 0.9 x 0.7 m + 0.9 x 0.7 x 0.5 m)
+    assert alloc.foam_volume_m3 == pytest.approx(0.945 + 0.315)
+    with pytest.raises(JobError, match="P01.*fits no stock"):  # pack alone still refuses
+        pack([(p.id, tuple(p.block.size_mm)) for p in pieces], job)
 
 
-def test_stock_running_out_raises() -> None:
+def test_stock_running_out_leaves_the_rest_out_with_a_finding() -> None:
     job = job_with(StockSpec("one", (1000.0, 800.0, 600.0), 1))
     pieces = [fake_piece(f"P{i:02d}", (900.0, 700.0, 500.0)) for i in (1, 2)]
+    alloc = allocate(pieces, job)
+    assert [pl.piece_id for pl in alloc.placements] == ["P01"]
+    miss = [f for f in alloc.findings if f.code == "no-stock-block"]
+    assert [f.piece for f in miss] == ["P02"] and "runs out" in miss[0].message
     with pytest.raises(JobError, match="runs out"):
-        allocate(pieces, job)
+        pack([(p.id, tuple(p.block.size_mm)) for p in pieces], job)
 
 
 def test_smaller_stock_kind_is_preferred() -> None:

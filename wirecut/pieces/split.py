@@ -55,6 +55,7 @@ __all__ = [
     "sweep_cuts",
     "strip_count_bound",
     "split_limits",
+    "sweep_limit",
     "split_pieces",
     "COARSE_ACCEPT",
     "fit_budget",
@@ -388,6 +389,26 @@ def split_limits(job: JobProfile) -> tuple[float, float]:
     return float(max_w), float(min(travel, side))
 
 
+def sweep_limit(job: JobProfile, width_mm: float) -> float:
+    """Longest blank along the sweep (mm) for a strip ``width_mm`` wide along the wire.
+
+    An upright blank needs both of its horizontal sides inside a block's two: a stock kind of
+    horizontal sides L >= W takes a strip up to W wide with a blank up to L long, and a strip
+    wider than W (up to L) with a blank up to W long. The best kind counts, and the x travel
+    minus two home clearances caps it (:func:`split_limits`); a strip no kind takes upright
+    keeps the longest side (the allocation may still lay its blank on its side, or says it
+    fits no block)."""
+    best = 0.0
+    for kind in job.stock:
+        long_side, short_side = sorted(kind.size_mm[:2], reverse=True)
+        if width_mm <= short_side + 1e-6:
+            best = max(best, long_side)
+        elif width_mm <= long_side + 1e-6:
+            best = max(best, short_side)
+    _, longest = split_limits(job)
+    return float(min(best, longest)) if best > 0.0 else longest
+
+
 def _candidates(direction: Any) -> list[DirectionFrame]:
     """The frames to try: a DirectionFrame, a sequence of them, or a choice with
     ``best`` and ``runner_up``."""
@@ -626,7 +647,8 @@ def _layout(
         if band.is_empty:
             continue
         x0, x1 = extent_along(band, sweep)
-        xs = sweep_cuts(x0, x1, max_len, job.pieces.sweep_margin_mm)
+        # the blank must fit a block with both horizontal sides: a wide strip, a shorter blank
+        xs = sweep_cuts(x0, x1, min(max_len, sweep_limit(job, b - a)), job.pieces.sweep_margin_mm)
         for i in range(len(xs) - 1):
             part = band if len(xs) == 2 else strip(band, sweep, xs[i], xs[i + 1])
             for poly in polygons_of(part, min_area_mm2=1e-3):

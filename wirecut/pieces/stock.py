@@ -173,8 +173,20 @@ def pack(
     JobError
         A blank fits no stock kind, or the stock on hand runs out.
     """
+    placements, opened, left_out = _pack(blanks, job)
+    if left_out:
+        raise JobError(left_out[0][1])
+    return placements, opened
+
+
+def _pack(
+    blanks: list[tuple[str, tuple[float, float, float]]], job: JobProfile
+) -> tuple[list[Placement], list[RawBlock], list[tuple[str, str]]]:
+    """:func:`pack` that goes on past a blank it cannot place: the placements of the blanks
+    placed (in the input order), the blocks opened, and (id, why) of each blank left out."""
     kinds = {s.name: s for s in job.stock}
     used = {s.name: 0 for s in job.stock}
+    left_out: list[tuple[str, str]] = []
     opened: list[RawBlock] = []
     free: list[list[tuple[np.ndarray, np.ndarray]]] = []
     placed: dict[str, Placement] = {}
@@ -204,17 +216,19 @@ def pack(
                     f"{k.name} {k.size_mm[0]:g} x {k.size_mm[1]:g} x {k.size_mm[2]:g} mm"
                     for k in job.stock
                 )
-                raise JobError(
+                left_out.append((pid, (
                     f"piece {pid}: blank {size[0]:.0f} x {size[1]:.0f} x {size[2]:.0f} mm "
                     f"(sweep x wire x height) fits no stock block ({stock})"
-                )
+                )))  # fmt: skip
+                continue
             left = [k for k in fitting if used[k.name] < k.count]
             if not left:
                 names = ", ".join(f"{k.count} {k.name!r}" for k in fitting)
-                raise JobError(
+                left_out.append((pid, (
                     f"piece {pid}: the stock runs out (all {names} blocks used) before the blank "
                     f"{size[0]:.0f} x {size[1]:.0f} x {size[2]:.0f} mm is placed"
-                )
+                )))  # fmt: skip
+                continue
             kind = min(left, key=lambda k: (float(np.prod(k.size_mm)), job.stock.index(k)))
             block = RawBlock(kind.name, used[kind.name], np.asarray(kind.size_mm, float))
             used[kind.name] += 1
@@ -230,7 +244,7 @@ def pack(
         free[bi].extend(_split(o, box, s))
         # lowest, then nearest the origin first: keeps blanks stacked from the bottom
         free[bi].sort(key=lambda ob: (ob[0][2], ob[0][1], ob[0][0]))
-    return [placed[pid] for pid, _ in blanks], opened
+    return [placed[pid] for pid, _ in blanks if pid in placed], opened, left_out
 
 
 def allocate(pieces: list[Piece] | tuple[Piece, ...], job: JobProfile) -> Allocation:
@@ -246,15 +260,18 @@ def allocate(pieces: list[Piece] | tuple[Piece, ...], job: JobProfile) -> Alloca
     Returns
     -------
     Allocation
-
-    Raises
-    ------
-    JobError
-        When the stock cannot hold the job (names the piece, its size and the stock).
+        A blank that fits no stock kind, or finds the stock run out, is left out of the
+        placements with a ``no-stock-block`` finding naming the piece, its size and the
+        stock; the foam bill still counts its blank.
     """
     blanks = [(p.id, tuple(float(v) for v in p.block.size_mm)) for p in pieces]
-    placements, blocks = pack(blanks, job)
-    findings: list[Finding] = []
+    placements, blocks, left_out = _pack(blanks, job)
+    # a blank no block takes is the fabricator's to solve (a larger kind, more blocks, a
+    # thinner base): said, and the rest of the plan made, not the whole plan refused
+    findings: list[Finding] = [
+        Finding("no-stock-block", f"{why}: add a larger stock kind or more blocks", piece=pid)
+        for pid, why in left_out
+    ]
     foam = sum(float(np.prod(b)) for _, b in blanks) * 1e-9
     raw = sum(float(np.prod(b.size_mm)) for b in blocks) * 1e-9
     kept_mm3 = 0.0
