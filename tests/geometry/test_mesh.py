@@ -463,3 +463,31 @@ def test_units_hint_names_every_plausible_unit_with_its_size():
     msg = warn[0].message
     assert "--units m (2.89 m across)" in msg and "--units ft (0.881 m across)" in msg
     assert "\n" not in msg
+
+
+def test_a_soup_whose_corners_do_not_quite_meet_is_welded():
+    # the dome written face by face with every corner moved up to 1e-4 mm (a soup): welded
+    # into the shared-corner mesh, with the same vertex count as the clean one
+    v, f, _ = _dome(0.0)
+    rng = np.random.default_rng(8)
+    soup = v[f] + rng.uniform(-1e-4, 1e-4, (len(f), 3, 3))
+    target, findings = target_from_arrays(
+        soup.reshape(-1, 3), np.arange(3 * len(f)).reshape(-1, 3), JOB
+    )
+    clean, _ = target_from_arrays(v, f, JOB)
+    assert len(target.vertices) == len(clean.vertices) and len(target.faces) == len(f)
+    weld = [x for x in findings if x.code == "mesh-welded"]
+    assert len(weld) == 1 and weld[0].severity is Severity.INFO
+    assert not [x for x in findings if x.code == "unconnected-faces"]
+    # the welded surface has the clean one's boundary: the same count of boundary vertices
+    assert target.boundary_vertices.sum() == clean.boundary_vertices.sum()
+
+
+def test_faces_that_share_no_corner_are_flagged():
+    # triangles side by side with gaps between them: nothing to weld, an attention finding
+    base = np.array([[0.0, 0.0, 0.0], [10.0, 0.0, 0.0], [0.0, 10.0, 1.0]])
+    v = np.concatenate([base + [30.0 * i, 30.0 * j, 0.0] for i in range(6) for j in range(6)])
+    _, findings = target_from_arrays(v, np.arange(len(v)).reshape(-1, 3), JOB)
+    flag = [x for x in findings if x.code == "unconnected-faces"]
+    assert len(flag) == 1 and flag[0].severity is Severity.ATTENTION
+    assert not [x for x in findings if x.code == "mesh-welded"]

@@ -629,6 +629,13 @@ def _build(
     first, inv = unique_rows(q, bounds)
     vertices = vertices[first]
     faces = inv[faces]
+    n_exact = len(vertices)
+    # faces that do not share their corners (a soup: corners written per face, a little
+    # apart): welded within a thousandth of the median edge, else the analysis sees a heap
+    # of loose triangles
+    welded_mm = 0.0
+    if _looks_unwelded(len(vertices), len(faces)):
+        vertices, faces, welded_mm = _weld(vertices, faces)
     # drop degenerate and duplicate faces (the duplicates are sorted out in a thread: numpy's
     # sorts and loops let the interpreter go)
     from wirecut.workers import threaded
@@ -651,7 +658,7 @@ def _build(
     remap = np.full(len(vertices), -1, np.int64)
     remap[used] = np.arange(len(used))
     vertices, faces = vertices[used], remap[faces]
-    merged, dropped = n_in - len(first), m_in - len(faces)
+    merged, dropped = n_in - n_exact, m_in - len(faces)
     if merged or dropped:
         findings.append(
             Finding(
@@ -659,6 +666,24 @@ def _build(
                 f"{label}: merged {merged} duplicate vertices, dropped {dropped} degenerate or "
                 f"duplicate faces, {len(faces)} faces remain",
                 severity=Severity.INFO,
+            )
+        )
+    if welded_mm > 0.0:
+        findings.append(
+            Finding(
+                "mesh-welded",
+                f"{label}: the faces did not share their corners; {n_exact - len(vertices)} "
+                f"corners within {welded_mm:.3g} mm of another were welded into one",
+                severity=Severity.INFO,
+            )
+        )
+    if _looks_unwelded(len(vertices), len(faces)):
+        findings.append(
+            Finding(
+                "unconnected-faces",
+                f"{label}: {len(vertices)} vertices for {len(faces)} faces: most faces share no "
+                "corner with their neighbours even after welding, so curvature, reach and "
+                "pieces are unreliable; weld the mesh's vertices in the modelling tool",
             )
         )
 
@@ -715,6 +740,45 @@ def _build(
     if target.area_mm2 <= 0.0:
         raise MeshError(f"{label} has zero total area")
     return target, findings
+
+
+#: A surface's faces share their corners: about half a vertex per face inside, a few more
+#: along the boundary (a strip one triangle wide has one per face). More than this many per
+#: face means most faces stand alone (a soup has three).
+_UNWELDED_VERTICES_PER_FACE = 1.5
+#: The welding distance, as a share of the median edge.
+_WELD_SHARE = 1e-3
+
+
+def _looks_unwelded(n_vertices: int, n_faces: int) -> bool:
+    """Too many vertices for the faces to share corners (see the constant above)."""
+    return n_faces >= 4 and n_vertices > _UNWELDED_VERTICES_PER_FACE * n_faces
+
+
+def _weld(vertices: np.ndarray, faces: np.ndarray) -> tuple[np.ndarray, np.ndarray, float]:
+    """Merge the vertices closer than ``_WELD_SHARE`` of the median edge (chains of such pairs
+    become one vertex, the lowest index's position): scipy's KD-tree pairs, joined by
+    connected components. Returns the vertices, the faces re-indexed, and the distance (mm).
+    Degenerate faces this makes are dropped by the caller."""
+    from scipy.sparse import coo_matrix
+    from scipy.sparse.csgraph import connected_components
+    from scipy.spatial import cKDTree
+
+    edges = np.linalg.norm(vertices[faces] - vertices[np.roll(faces, 1, axis=1)], axis=2)
+    tol = _WELD_SHARE * float(np.median(edges))
+    if not tol > 0.0:
+        return vertices, faces, 0.0
+    pairs = cKDTree(vertices).query_pairs(tol, output_type="ndarray")
+    if len(pairs) == 0:
+        return vertices, faces, 0.0
+    n = len(vertices)
+    graph = coo_matrix((np.ones(len(pairs)), (pairs[:, 0], pairs[:, 1])), shape=(n, n))
+    _, label = connected_components(graph, directed=False)
+    first = np.full(label.max() + 1, n, np.int64)
+    np.minimum.at(first, label, np.arange(n))  # each group's lowest index, in index order
+    rank = np.empty(len(first), np.int64)
+    rank[np.argsort(first, kind="stable")] = np.arange(len(first))
+    return vertices[np.sort(first)], rank[label][faces], tol
 
 
 def _tilt_check(
