@@ -851,7 +851,8 @@ def _build(surf, trial, target, job, fitter, report):
                 Finding(
                     "blank-too-tall",
                     f"the blank is {height:.0f} mm high, above every stock height "
-                    f"(at most {tallest:.0f} mm): it must be cut from a block on its side",
+                    f"(at most {tallest:.0f} mm): only a block laid on its side can hold it; "
+                    "the stock findings say whether one does",
                     piece=pid,
                 )
             )
