@@ -216,18 +216,20 @@ def _pack(
                     f"{k.name} {k.size_mm[0]:g} x {k.size_mm[1]:g} x {k.size_mm[2]:g} mm"
                     for k in job.stock
                 )
-                left_out.append((pid, (
+                why = (
                     f"piece {pid}: blank {size[0]:.0f} x {size[1]:.0f} x {size[2]:.0f} mm "
                     f"(sweep x wire x height) fits no stock block ({stock})"
-                )))  # fmt: skip
+                )
+                left_out.append((pid, why))
                 continue
             left = [k for k in fitting if used[k.name] < k.count]
             if not left:
                 names = ", ".join(f"{k.count} {k.name!r}" for k in fitting)
-                left_out.append((pid, (
+                why = (
                     f"piece {pid}: the stock runs out (all {names} blocks used) before the blank "
                     f"{size[0]:.0f} x {size[1]:.0f} x {size[2]:.0f} mm is placed"
-                )))  # fmt: skip
+                )
+                left_out.append((pid, why))
                 continue
             kind = min(left, key=lambda k: (float(np.prod(k.size_mm)), job.stock.index(k)))
             block = RawBlock(kind.name, used[kind.name], np.asarray(kind.size_mm, float))
