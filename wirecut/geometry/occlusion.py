@@ -39,6 +39,7 @@ from wirecut.geometry.plan_grid import PlanGrid
 __all__ = [
     "occluded_vertices",
     "occluded_points",
+    "prepare_occlusion",
     "is_height_field",
     "vertex_rays",
     "first_hit_faces",
@@ -217,6 +218,13 @@ def is_height_field(target: TargetSurface, plan_det=None) -> bool:
     if hit is None:
         hit = _HEIGHT_FIELD[target] = bool(plan_view_injective(target, plan_det))
     return hit
+
+
+def prepare_occlusion(target: TargetSurface) -> None:
+    """Work out once whether the target is a height field and, where it is not, build the
+    plan index :func:`occluded_points` needs (before worker processes are forked)."""
+    if not is_height_field(target):
+        _plan_index(target)
 
 
 def occluded_points(target: TargetSurface, points: np.ndarray, face: np.ndarray) -> np.ndarray:

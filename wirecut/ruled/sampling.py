@@ -36,7 +36,7 @@ import shapely
 from wirecut.errors import MeshError
 from wirecut.geometry.frames import apply, to_plan
 from wirecut.geometry.mesh import TargetSurface
-from wirecut.geometry.occlusion import occluded_points
+from wirecut.geometry.occlusion import occluded_points, prepare_occlusion
 from wirecut.geometry.plan_grid import PlanGrid
 from wirecut.geometry.plan_shapes import triangle_polygons
 from wirecut.geometry.vectors import cross
@@ -325,7 +325,7 @@ def prepare_sampling(target: Any) -> None:
     processes forked afterwards inherit it instead of each building its own."""
     _prepared(target).plan_grid()
     if isinstance(target, TargetSurface):
-        occluded_points(target, np.zeros((1, 3)), np.zeros(1, np.int64))  # its plan index
+        prepare_occlusion(target)
 
 
 def _first_seen(ids: np.ndarray, n: int) -> tuple[np.ndarray, np.ndarray]:
