@@ -251,3 +251,16 @@ def test_saddle_on_an_irregular_mesh():
     assert np.percentile(err, 10) > -0.10
     assert err.max() < 0.03
     assert (an.kind == RULED).mean() > 0.99
+
+
+def test_developable_reach_on_cad_slivers_stays_within_the_ruling():
+    from shapes import cylinder
+
+    # the cylinder written as a CAD tessellation does: one row of faces along its 1000 mm
+    # generators (long slivers), every vertex on the boundary
+    v, f = cylinder(300.0, 1000.0, 61, 2)
+    _, an = _analyse(v, f)
+    assert (an.kind == DEVELOPABLE).all()
+    # the generators are 1000 mm long (by construction): no line may reach past their ends
+    assert an.wire_reach_mm.max() <= 1000.0 * 1.001
+    assert np.abs(an.wire_reach_mm / 1000.0 - 1).max() < 0.03

@@ -488,10 +488,14 @@ class _SurfaceProbe:
         self.edge = target.mean_edge_mm
         self.off = 2.0 * self.edge
         self.reach = 3.0 * self.edge + 1e-9
+        outward, shortest = _outward_boundary_directions(target)
+        # how far past a boundary vertex a point still counts as on the surface: a twentieth
+        # of the mean edge, or of three times the vertex's shortest boundary edge where that
+        # is less (long slivers along a boundary, as CAD tessellations write them, would
+        # otherwise let a line run most of a sliver's length past the end)
+        self.past = 0.05 * np.minimum(self.edge, 3.0 * shortest)
         # per vertex: normal, dir1, dir2 (orthonormal) and the outward boundary tangent
-        self.axes = np.stack(
-            [cu.normals, cu.dir1, cu.dir2, _outward_boundary_directions(target)], axis=1
-        )
+        self.axes = np.stack([cu.normals, cu.dir1, cu.dir2, outward], axis=1)
         self.k = np.column_stack([cu.k1, cu.k2])
 
     def __call__(self, q: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -505,19 +509,24 @@ class _SurfaceProbe:
         surf = 0.5 * (kk[:, 0] * a * a + kk[:, 1] * b * b)
         # off the surface: too far sideways from the nearest vertex, or past the outward side
         # of a boundary vertex
-        on = hit & (a * a + b * b <= self.off**2) & (out <= 0.05 * self.edge)
+        on = hit & (a * a + b * b <= self.off**2) & (out <= self.past[j])
         return h - surf, on
 
 
-def _outward_boundary_directions(target: TargetSurface) -> np.ndarray:
-    """(n, 3) unit tangent pointing out of the surface at boundary vertices; zero elsewhere."""
+def _outward_boundary_directions(target: TargetSurface) -> tuple[np.ndarray, np.ndarray]:
+    """(n, 3) unit tangent pointing out of the surface at boundary vertices, zero elsewhere;
+    and (n,) the length of each vertex's shortest boundary edge, mm (infinite elsewhere)."""
     v, f = target.vertices, target.faces
     directed = np.stack([f, np.roll(f, -1, axis=1)], axis=2).reshape(-1, 2)
     third = np.roll(f, -2, axis=1).reshape(-1)
     lone = target.edge_table.lone()
     a, b, c = directed[lone, 0], directed[lone, 1], third[lone]
     e = v[b] - v[a]
-    e /= np.linalg.norm(e, axis=1, keepdims=True)
+    length = np.linalg.norm(e, axis=1, keepdims=True)
+    e /= length
+    shortest = np.full(len(v), np.inf)
+    np.minimum.at(shortest, a, length[:, 0])
+    np.minimum.at(shortest, b, length[:, 0])
     out = 0.5 * (v[a] + v[b]) - v[c]
     out -= np.einsum("ij,ij->i", out, e)[:, None] * e
     out /= np.maximum(np.linalg.norm(out, axis=1, keepdims=True), 1e-300)
@@ -526,7 +535,7 @@ def _outward_boundary_directions(target: TargetSurface) -> np.ndarray:
         for d in range(3):
             acc[:, d] += np.bincount(idx, weights=out[:, d], minlength=len(v))
     norm = np.linalg.norm(acc, axis=1, keepdims=True)
-    return np.divide(acc, norm, out=np.zeros_like(acc), where=norm > 0)
+    return np.divide(acc, norm, out=np.zeros_like(acc), where=norm > 0), shortest
 
 
 def _march(
