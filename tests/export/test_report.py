@@ -404,3 +404,17 @@ def test_the_total_machine_time_says_when_pieces_have_no_program(tmp_path):
     pj["pieces"][1]["machine_time_s"] = None
     text = write_report(replace(data, plan_json=pj), tmp_path / "some").read_text("utf-8")
     assert "1 of 2 pieces have a program (see the findings)" in text
+
+
+def test_a_piece_without_a_block_says_so_on_its_sheet(tmp_path):
+    from dataclasses import replace
+
+    data = _data()
+    pj = json.loads(json.dumps(data.plan_json))
+    pj["pieces"][1]["stock"] = None
+    text = write_report(replace(data, plan_json=pj), tmp_path).read_text("utf-8")
+    sheet = text[text.index("id='piece-P02'") :]
+    assert "no block on hand takes this blank (see the findings)" in sheet
+    assert (
+        "no block on hand" not in text[text.index("id='piece-P01'") : text.index("id='piece-P02'")]
+    )

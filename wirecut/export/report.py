@@ -403,7 +403,12 @@ def _sheet(out_dir: Path, sheet: PieceSheet, entry: dict, i: int, pj: dict, img:
     right_gap = None if span is None or faces[1] is None else float(span) - float(faces[1])
     wire = entry.get("wire_direction_part") or []
     rows = [
-        ("Stock", f"<span class='code'>{_E(str(entry.get('stock') or '-'))}</span>"),
+        (
+            "Stock",
+            f"<span class='code'>{_E(str(entry['stock']))}</span>"
+            if entry.get("stock")
+            else "no block on hand takes this blank (see the findings)",
+        ),
         (
             "Blank (sweep x wire x height)",
             " × ".join(_cell(v, 0, f"{key}blank_size_mm.{j}") for j, v in enumerate(size))
