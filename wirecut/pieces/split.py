@@ -635,7 +635,7 @@ def _fit(fitter, target, region, block, transform, job, spacing, enough_mm=None,
 
 
 def _layout(
-    surf: _Surface, frame: DirectionFrame, cuts: np.ndarray, job: JobProfile, max_len: float
+    surf: _Surface, frame: DirectionFrame, cuts: np.ndarray, job: JobProfile
 ) -> list[tuple[int, Polygon, float, float]]:
     """(strip index, polygon, z_lo, z_hi) of every piece: strips, splits along the sweep,
     connected parts. Neighbours are clipped at the same coordinate, so they share cut lines."""
@@ -648,7 +648,7 @@ def _layout(
             continue
         x0, x1 = extent_along(band, sweep)
         # the blank must fit a block with both horizontal sides: a wide strip, a shorter blank
-        xs = sweep_cuts(x0, x1, min(max_len, sweep_limit(job, b - a)), job.pieces.sweep_margin_mm)
+        xs = sweep_cuts(x0, x1, sweep_limit(job, b - a), job.pieces.sweep_margin_mm)
         for i in range(len(xs) - 1):
             part = band if len(xs) == 2 else strip(band, sweep, xs[i], xs[i + 1])
             for poly in polygons_of(part, min_area_mm2=1e-3):
@@ -703,7 +703,7 @@ def split_pieces(
         pass
     if surf.fp.is_empty:
         raise JobError("the target has no plan-view area to cut (every face is vertical)")
-    max_w, max_len = split_limits(job)
+    max_w, _ = split_limits(job)
     min_w = job.pieces.min_width_mm
     step = resolution_mm or max(1.0, 0.01 * max_w)
     tol = job.tolerance.surface_mm
@@ -752,7 +752,7 @@ def split_pieces(
             plan = greedy_strips(
                 lo, hi, feasible, max_w, min_w, step, guess_mm=guess, feasible_many=feasible_many
             )
-        layout = _layout(surf, frame, plan.cuts, job, max_len)
+        layout = _layout(surf, frame, plan.cuts, job)
         bound = strip_count_bound(hi - lo, _reach(analysis), max_w)
         trials.append((frame, plan, layout, bound, hints))
         report("split", len(trials), len(frames))
