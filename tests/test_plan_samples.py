@@ -38,13 +38,33 @@ def _same(s1, s2) -> None:
 def test_region_sampling_equals_clipping_the_whole_surface() -> None:
     # only the faces near the region are sampled: the interior samples must be those of the
     # whole surface clipped to the region (the region's own boundary samples come on top)
+    # (on the outline itself only the faces that reach inside give samples: see below)
     target = _dome()
     region = shapely.Polygon([(120, 80), (610, 130), (560, 470), (150, 420)])
     part = sample_target(target, np.eye(4), region, density=4.0)
     whole = sample_target(target, np.eye(4), None, density=4.0)
-    inside = shapely.intersects_xy(region, whole.plan_xy[:, 0], whole.plan_xy[:, 1])
-    _same(part.subset(part.weights > 0), whole.subset(inside & (whole.weights > 0)))
-    assert np.isclose(part.area_mm2, whole.subset(inside).area_mm2)
+    inside = shapely.contains_xy(region, whole.plan_xy[:, 0], whole.plan_xy[:, 1])
+    strict = shapely.contains_xy(region, part.plan_xy[:, 0], part.plan_xy[:, 1])
+    _same(part.subset(strict & (part.weights > 0)), whole.subset(inside & (whole.weights > 0)))
+    on = shapely.intersects_xy(region, whole.plan_xy[:, 0], whole.plan_xy[:, 1])
+    assert whole.subset(inside).area_mm2 <= part.area_mm2 <= whole.subset(on).area_mm2
+
+
+def test_outline_samples_come_from_faces_inside_the_region() -> None:
+    # a region whose edge runs along mesh edges: the lattice points on it belong to the faces
+    # on both sides, but only the inside faces' copies are kept, and every outline sample's
+    # face covers some of the region
+    target = _dome()
+    region = shapely.box(150.0, 100.0, 600.0, 400.0)  # on grid lines of the 30 x 30 dome
+    part = sample_target(target, np.eye(4), region, density=4.0)
+    rim = ~shapely.contains_xy(region, part.plan_xy[:, 0], part.plan_xy[:, 1])
+    assert rim.any()
+    tri = shapely.polygons(target.vertices[target.faces[part.face[rim]]][:, :, :2])
+    assert np.all(shapely.area(shapely.intersection(tri, region)) > 1.0)
+    centre = target.vertices[target.faces].mean(axis=1)
+    within = shapely.contains_xy(region, centre[:, 0], centre[:, 1])
+    # the weights are the inside faces' areas exactly: none from the faces beyond the edge
+    assert np.isclose(part.area_mm2, target.face_areas[within].sum(), rtol=1e-12)
 
 
 def test_reused_samples_are_the_check_samples() -> None:

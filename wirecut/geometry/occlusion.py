@@ -28,6 +28,7 @@ rays cast as before.
 from __future__ import annotations
 
 import weakref
+from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
@@ -227,13 +228,20 @@ def prepare_occlusion(target: TargetSurface) -> None:
         _plan_index(target)
 
 
-def occluded_points(target: TargetSurface, points: np.ndarray, face: np.ndarray) -> np.ndarray:
+def occluded_points(
+    target: TargetSurface,
+    points: np.ndarray,
+    face: np.ndarray,
+    counts: Callable[[np.ndarray], np.ndarray] | None = None,
+) -> np.ndarray:
     """(k,) bool: points (k, 3) mm on the target's faces ``face`` (k,), part frame, over which
     another face lies toward the waste side (the wire coming from the waste meets that face
     first: the point is undercut).
 
     A face other than the point's own counts when the point lies inside its plan view and it
     is more than 1e-6 of the extent higher there (a neighbour sharing the point's edge is not).
+    ``counts``, if given, takes face indices (j,) and says (j,) bool which of them may count
+    at all (a piece's samples on its outline are hidden only by faces inside the piece).
     A target proven to be a height field (:func:`is_height_field`) has none and casts nothing;
     otherwise the plan index (the one the vertex rays and the check map use too) is built once
     per target (before worker processes are forked,
@@ -251,6 +259,8 @@ def occluded_points(target: TargetSurface, points: np.ndarray, face: np.ndarray)
     eps = 1e-6 * max(target.extent_mm, 1e-9)
     for qi, t, h in index.hits(to_plan(pts, target.up)):
         over = (t != own[qi]) & (h > height[qi] + eps)
+        if counts is not None and over.any():
+            over[over] = counts(t[over])
         out[qi[over]] = True
     return out
 

@@ -36,6 +36,7 @@ from wirecut.errors import JobError
 from wirecut.findings import Finding, Severity
 from wirecut.geometry.frames import DirectionFrame, plan_basis, rigid
 from wirecut.geometry.plan_shapes import collector_paused, triangle_polygons
+from wirecut.pieces.breaks import break_lines, segments
 from wirecut.pieces.piece import Block, Piece
 from wirecut.pieces.region import (
     extent_along,
@@ -104,6 +105,16 @@ class StripPlan:
         """Number of strips."""
         return len(self.feasible)
 
+    @staticmethod
+    def joined(parts: Sequence[StripPlan]) -> StripPlan:
+        """The plans of consecutive segments (each starting where the one before ends) as one."""
+        cuts = [parts[0].cuts[:1]] + [p.cuts[1:] for p in parts]
+        return StripPlan(
+            np.concatenate(cuts),
+            np.concatenate([p.feasible for p in parts]),
+            sum(p.evaluations for p in parts),
+        )
+
 
 def greedy_strips(
     lo: float,
@@ -115,6 +126,7 @@ def greedy_strips(
     progress: Callable[[str], None] | None = None,
     guess_mm: float | None = None,
     feasible_many: Callable[[list[tuple[float, float]]], list] | None = None,
+    end_is_cut: bool = False,
 ) -> StripPlan:
     """Fewest strips covering ``[lo, hi]`` whose every strip passes ``feasible``.
 
@@ -142,6 +154,11 @@ def greedy_strips(
         The same oracle asked about several strips at once (for instance side by side in
         worker processes); the search then asks two strips per round. Never changes the
         result.
+    end_is_cut : bool
+        ``hi`` is a cut the last strip must end at (a break line, see
+        :mod:`wirecut.pieces.breaks`), not the footprint's edge: a rest narrower than the
+        minimum width is then made up by moving the cut before it back (the strip before
+        stays feasible, being narrower), instead of widening the last strip beyond ``hi``.
 
     Returns
     -------
@@ -226,6 +243,17 @@ def greedy_strips(
     a = float(lo)
     while hi - a > 1e-9:
         rest = hi - a
+        back = hi - min_width_mm
+        if (
+            end_is_cut
+            and rest < min_width_mm - 1e-9
+            and len(cuts) >= 2
+            and back - cuts[-2] >= min_width_mm - 1e-9
+        ):
+            cuts[-1] = back
+            cuts.append(float(hi))
+            ok.append(ask(back, hi)[0])
+            break
         whole = rest <= k_max * step + 1e-9
         top = min(k_max, int(math.ceil(rest / step - 1e-9)) - 1)
         if whole and (top < k_min or rest <= guess * step + 1e-9) and ask(a, hi)[0]:
@@ -749,9 +777,18 @@ def split_pieces(
                 hints.update(zip(pairs, (h for _, h in out), strict=True))
                 return [r for r, _ in out]
 
-            plan = greedy_strips(
-                lo, hi, feasible, max_w, min_w, step, guess_mm=guess, feasible_many=feasible_many
-            )
+            # the strips are searched between the creases along the sweep, which no strip
+            # can straddle (wirecut.pieces.breaks)
+            spans = segments(lo, hi, break_lines(target, sweep, wire, 0.25 * min_w), min_w)
+            parts = []
+            for k, (a, b) in enumerate(spans):
+                last = k == len(spans) - 1
+                part = greedy_strips(
+                    a, b, feasible, max_w, min_w, step, guess_mm=guess,
+                    feasible_many=feasible_many, end_is_cut=not last,
+                )  # fmt: skip
+                parts.append(part)
+            plan = StripPlan.joined(parts)
         layout = _layout(surf, frame, plan.cuts, job)
         bound = strip_count_bound(hi - lo, _reach(analysis), max_w)
         trials.append((frame, plan, layout, bound, hints))
@@ -820,8 +857,9 @@ def _build(surf, trial, target, job, fitter, report):
         if fit is None:
             continue
         pid = f"P{len(pieces) + 1:02d}"
-        ok = bool(plan.feasible[k])
         tol = job.tolerance.surface_mm
+        # the dense final fit decides where the coarse one of the width search failed
+        ok = bool(plan.feasible[k]) or fit.report.max_abs_mm <= fit_budget(job) * tol
         if not ok and fit.report.max_abs_mm > tol:
             bad_area += poly.area
             findings.append(

@@ -340,6 +340,29 @@ def _first_seen(ids: np.ndarray, n: int) -> tuple[np.ndarray, np.ndarray]:
     return at[values], rank[ids]
 
 
+def _reaches_into(region: shapely.Geometry, prep: _Prepared, faces: np.ndarray) -> np.ndarray:
+    """(k,) bool: whether each face of ``faces`` (k,) covers some of the region's inside in
+    plan, not only a point or an edge of its outline.
+
+    A point on the outline belongs to the faces on both sides of it. Where the surface is
+    continuous both give the same point, but at a step (a vertical wall, an edge of a sheet
+    over another) the face beyond the outline lies at another height, and a piece ending at
+    the step would be judged against the level of its neighbour."""
+    out = np.zeros(len(faces), bool)
+    if len(faces) == 0:
+        return out
+    uniq, inverse = np.unique(faces, return_inverse=True)
+    centre = prep.tri_plan[uniq].mean(axis=1)
+    owned = shapely.contains_xy(region, centre[:, 0], centre[:, 1])
+    owned &= np.abs(prep.det[uniq]) > 1e-9
+    rest = np.flatnonzero(~owned & (np.abs(prep.det[uniq]) > 1e-9))
+    if len(rest):
+        polys = triangle_polygons(prep.tri_plan[uniq[rest]])
+        inside = shapely.area(shapely.intersection(polys, region))
+        owned[rest] = inside > 1e-9 * 0.5 * np.abs(prep.det[uniq[rest]])
+    return owned[inverse]
+
+
 def _boundary_samples(
     region: shapely.Geometry, prep: _Prepared, spacing: float
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -364,6 +387,8 @@ def _boundary_samples(
         hits.append((ip[keep], it[keep]))
     ip = np.concatenate([h[0] for h in hits]) if hits else np.zeros(0, np.int64)
     f = np.concatenate([h[1] for h in hits]) if hits else np.zeros(0, np.int64)
+    owned = _reaches_into(region, prep, f)
+    ip, f = ip[owned], f[owned]
     p = pts[ip]
     tri_plan = prep.tri_plan
     a, b, c = tri_plan[f, 0], tri_plan[f, 1], tri_plan[f, 2]
@@ -463,8 +488,21 @@ def sample_target(
     plan = to_plan(points, up)
 
     if region is not None:
-        keep = shapely.intersects_xy(region, plan[:, 0], plan[:, 1])
+        # the outline, as a band of rounding width: a strip's edges are computed, not given,
+        # and lie off a mesh edge they should meet by some 1e-13 of the coordinates
+        eps = 1e-8 * (1.0 + float(np.abs(region.bounds).max()))
+        grown = region.buffer(eps, join_style="mitre")
+        inner = region.buffer(-eps, join_style="mitre")
+        keep = shapely.intersects_xy(grown, plan[:, 0], plan[:, 1])
         points, weights, face, plan = points[keep], weights[keep], face[keep], plan[keep]
+        # a point on the outline counts only for the faces that reach inside the region
+        rim = np.flatnonzero(~shapely.contains_xy(inner, plan[:, 0], plan[:, 1]))
+        if len(rim):
+            drop = rim[~_reaches_into(region, prep, face[rim])]
+            if len(drop):
+                keep = np.ones(len(face), bool)
+                keep[drop] = False
+                points, weights, face, plan = points[keep], weights[keep], face[keep], plan[keep]
         bf, bary, bplan = _boundary_samples(region, prep, spacing)
         if len(bf):
             t = prep.tri[bf]
@@ -476,11 +514,24 @@ def sample_target(
 
     rot = transform[:3, :3]
     machine_normals = normals[face] @ rot.T
+    undercut = undercut_flags(target, points, face, machine_normals)
+    if region is not None and isinstance(target, TargetSurface):
+        # on the outline only the faces inside the piece can hide a point: a sheet edge or a
+        # step wall just beyond it belongs to the neighbour's block
+        rim = np.flatnonzero(
+            undercut
+            & (machine_normals[:, 1] > 1e-9)
+            & ~shapely.contains_xy(inner, plan[:, 0], plan[:, 1])
+        )
+        if len(rim):
+            undercut[rim] = occluded_points(
+                target, points[rim], face[rim], counts=lambda f: _reaches_into(region, prep, f)
+            )
     return TargetSamples(
         points=apply(transform, points),
         normals=machine_normals,
         weights=weights,
-        undercut=undercut_flags(target, points, face, machine_normals),
+        undercut=undercut,
         plan_xy=plan,
         face=face,
         spacing_mm=spacing,

@@ -1,0 +1,168 @@
+"""Break lines: the strips end at creases and steps that run along the sweep."""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+from shapes_pieces import height_target, quick_job
+
+import wirecut.pieces.split as split_module
+from wirecut.geometry.frames import DirectionFrame
+from wirecut.geometry.mesh import target_from_arrays
+from wirecut.pieces.breaks import break_lines, segments
+from wirecut.pieces.split import StripPlan, greedy_strips, split_pieces
+
+UP = np.array([0.0, 0.0, 1.0])
+SWEEP_X = (np.array([1.0, 0.0]), np.array([0.0, 1.0]))  # sweep along x, wire along y
+
+
+def frame(deg: float) -> DirectionFrame:
+    return DirectionFrame.from_angle(math.radians(deg), UP, "below")
+
+
+def roof(slope_deg: float):
+    """Two planes meeting in a ridge along x at y = 300 (a crease of 2 * slope_deg)."""
+    k = math.tan(math.radians(slope_deg))
+    xs = np.linspace(0.0, 600.0, 13)
+    ys = np.linspace(0.0, 600.0, 25)
+    return height_target(xs, ys, lambda x, y: 200.0 - k * np.abs(y - 300.0))
+
+
+def step_target(job=None, y_step: float = 330.0):
+    """Two levels 80 mm apart (each bent gently along x) joined by a vertical wall along x."""
+    job = job or quick_job()
+    xs = np.linspace(0.0, 600.0, 25)
+
+    def level(y0, y1, z0, n):
+        ys = np.linspace(y0, y1, n)
+        gx, gy = np.meshgrid(xs, ys, indexing="ij")
+        gz = z0 + 20.0 * np.sin(np.pi * gx / 600.0)
+        return np.column_stack([gx.ravel(), gy.ravel(), gz.ravel()]), len(ys)
+
+    lo, n_lo = level(0.0, y_step, 200.0, 12)
+    hi, n_hi = level(y_step, 600.0, 280.0, 10)
+    v = np.vstack([lo, hi])
+    faces = []
+
+    def cells(off, ny):
+        for i in range(len(xs) - 1):
+            for j in range(ny - 1):
+                a = off + i * ny + j
+                b, c, d = a + ny, a + ny + 1, a + 1
+                faces.extend([(a, b, c), (a, c, d)])
+
+    cells(0, n_lo)
+    cells(len(lo), n_hi)
+    for i in range(len(xs) - 1):  # the wall: lower level's last row up to the upper's first
+        a, b = i * n_lo + n_lo - 1, (i + 1) * n_lo + n_lo - 1
+        c, d = len(lo) + (i + 1) * n_hi, len(lo) + i * n_hi
+        faces.extend([(a, b, c), (a, c, d)])
+    target, _ = target_from_arrays(v, np.asarray(faces), job)
+    return target
+
+
+def test_a_ridge_along_the_sweep_is_a_break_line() -> None:
+    assert np.allclose(break_lines(roof(8.0), *SWEEP_X, 25.0), [300.0])
+
+
+def test_a_gentle_ridge_is_not() -> None:
+    # a crease of 2 x 2 deg stays under CREASE_DEG: the width search handles it as curvature
+    assert len(break_lines(roof(2.0), *SWEEP_X, 25.0)) == 0
+
+
+def test_a_ridge_along_the_wire_is_no_break() -> None:
+    # the wire lies in that ridge: it is a ruling, not a line a strip must end at
+    sweep_y = (np.array([0.0, 1.0]), np.array([1.0, 0.0]))
+    assert len(break_lines(roof(8.0), *sweep_y, 25.0)) == 0
+
+
+def test_a_step_is_one_break_line() -> None:
+    # the wall's foot and top are two creases on the same line
+    assert np.allclose(break_lines(step_target(), *SWEEP_X, 25.0), [330.0])
+
+
+def test_segments_keep_every_part_at_least_the_minimum_width() -> None:
+    assert segments(0.0, 1000.0, np.array([400.0]), 100.0) == [(0.0, 400.0), (400.0, 1000.0)]
+    # 30 mm from the start and 60 mm from the end: both left out
+    assert segments(0.0, 1000.0, np.array([30.0, 940.0]), 100.0) == [(0.0, 1000.0)]
+    # of two lines 50 mm apart the first is kept
+    assert segments(0.0, 1000.0, np.array([500.0, 450.0]), 100.0) == [
+        (0.0, 450.0),
+        (450.0, 1000.0),
+    ]
+
+
+def test_joined_plans_follow_each_other() -> None:
+    a = StripPlan(np.array([0.0, 100.0, 250.0]), np.array([True, True]), 5)
+    b = StripPlan(np.array([250.0, 400.0]), np.array([False]), 2)
+    j = StripPlan.joined([a, b])
+    assert np.array_equal(j.cuts, [0.0, 100.0, 250.0, 400.0])
+    assert np.array_equal(j.feasible, [True, True, False])
+    assert j.evaluations == 7
+
+
+def test_a_rest_before_a_break_moves_the_cut_back() -> None:
+    # strips of at most 290 mm pass; the segment ends at a break at 600: 290 + 290 leaves 20
+    # mm, narrower than the 100 mm minimum, so the second cut moves back to 500 rather than
+    # the last strip running past the break
+    plan = greedy_strips(0.0, 600.0, lambda a, b: b - a <= 290.0, 1000.0, 100.0, 10.0,
+                         end_is_cut=True)  # fmt: skip
+    assert np.allclose(plan.cuts, [0.0, 290.0, 500.0, 600.0])
+    assert plan.feasible.all()
+    # at the footprint's edge the last strip is widened instead (nothing lies beyond it)
+    edge = greedy_strips(0.0, 600.0, lambda a, b: b - a <= 290.0, 1000.0, 100.0, 10.0)
+    assert edge.cuts[-1] > 600.0
+
+
+@pytest.fixture(scope="module")
+def stepped():
+    job = quick_job()
+    return step_target(job), job
+
+
+def test_the_strips_of_a_step_end_at_it(stepped) -> None:
+    target, job = stepped
+    result = split_pieces(target, None, frame(90.0), job)  # wire along y, across the step
+    assert np.any(np.isclose(result.cuts_mm, 330.0))
+    tol = job.tolerance.surface_mm
+    for p in result.pieces:
+        assert p.extra["feasible"]
+        assert p.fit.report.max_abs_mm <= tol
+        # nothing of the piece is hidden: the wall and the other level lie beyond its outline
+        assert not p.fit.samples.undercut.any()
+    assert not result.findings
+
+
+def test_without_break_lines_a_strip_straddles_the_step(stepped, monkeypatch) -> None:
+    # the comparison the break lines are for: on the strip grid alone one strip holds both
+    # levels and cannot be cut within tolerance at any width
+    target, job = stepped
+    monkeypatch.setattr(split_module, "break_lines", lambda *a: np.zeros(0))
+    result = split_pieces(target, None, frame(90.0), job)
+    assert not np.any(np.isclose(result.cuts_mm, 330.0))
+    assert any(f.code == "strip-infeasible" for f in result.findings)
+
+
+def test_the_final_fit_overrules_a_failed_coarse_fit() -> None:
+    # the width search's coarse fits are made to fail everywhere; the pieces' dense final fits
+    # are within the fit's share of the tolerance, so no piece is called infeasible and no
+    # finding says a fit within its share went beyond it
+    from dataclasses import replace
+
+    from wirecut.ruled.fit import fit_cut
+
+    def pessimist(samples, *args, **kwargs):
+        fit = fit_cut(samples, *args, **kwargs)
+        if "enough_mm" in kwargs:  # a fit of the width search
+            fit = replace(fit, report=replace(fit.report, max_abs_mm=10.0))
+        return fit
+
+    job = quick_job()
+    target = roof(0.0)  # a plane
+    result = split_pieces(target, None, frame(90.0), job, fitter=pessimist)
+    assert result.pieces
+    assert all(p.extra["feasible"] for p in result.pieces)
+    assert not result.findings
+    assert result.infeasible_area_mm2 == 0.0

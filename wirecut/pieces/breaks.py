@@ -1,0 +1,110 @@
+"""Break lines: creases and steps of the target that run along the sweep.
+
+A straight wire crossing a crease of the surface cannot follow both sides of it. Across the
+wire the surface bends there by the crease's angle ``theta``; a strip that straddles the crease
+by ``d`` mm on its narrower side deviates from the best straight line by about
+``d tan(theta) / 2`` (the chord of a bent line, the same geometry as the sagitta). A step (a
+vertical wall between two levels, ``theta = 90 deg``) cannot be straddled at all. The width
+search finds the widest strip on a grid of ``resolution_mm``, so a strip ends within one grid
+step before a crease and the next one straddles it by up to a step: with the default 10 mm
+step and a 0.5 mm tolerance any crease sharper than about 6 deg then fails, even at the
+narrowest width.
+
+So the footprint is first cut at every crease that runs along the sweep, and the strips are
+searched between those cuts. Only creases along the sweep matter: one that runs along the wire
+is a ruling (the wire lies in it), and one that runs across both cannot be kept out of a strip
+by any cut across the wire.
+
+The edges come from the target's edge table (:class:`wirecut.geometry.mesh.EdgeTable`); the
+dihedral angle of an edge is the angle between its two faces' normals.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Any
+
+import numpy as np
+
+from wirecut.geometry.frames import to_plan
+
+__all__ = ["CREASE_DEG", "ALONG_SWEEP_DEG", "break_lines", "segments"]
+
+#: An inner edge whose two faces' normals differ by at least this angle is a crease. A smooth
+#: surface meshed at an edge of 2 % of its radius of curvature bends 1.1 deg per edge; a crease
+#: of 10 deg straddled by 10 mm is off by about 0.9 mm, more than a usual tolerance.
+CREASE_DEG = 10.0
+#: A crease counts when its plan direction lies within this angle of the sweep.
+ALONG_SWEEP_DEG = 10.0
+#: Crease edges closer than this across the wire (mm) belong to one break line.
+_GATHER_MM = 1.0
+
+
+def break_lines(
+    target: Any, sweep: np.ndarray, wire: np.ndarray, min_length_mm: float
+) -> np.ndarray:
+    """Wire coordinates (k,) mm, ascending, of the creases that run along the sweep.
+
+    Parameters
+    ----------
+    target : TargetSurface
+        Needs ``vertices``, ``faces``, ``face_normals``, ``up`` and ``edge_table``.
+    sweep, wire : (2,) float, unit
+        The plan axes of a wire direction (:func:`wirecut.pieces.region.plan_axes`).
+    min_length_mm : float
+        Least plan length along the sweep of a break line; shorter ones are left out.
+
+    Returns
+    -------
+    (k,) float, mm: the length-weighted median wire coordinate of each break line.
+    """
+    table = getattr(target, "edge_table", None)
+    if table is None or len(target.faces) == 0:
+        return np.zeros(0)
+    first, second = table.pairs()
+    if len(first) == 0:
+        return np.zeros(0)
+    normals = np.asarray(target.face_normals, float)
+    cos = np.einsum("ij,ij->i", normals[first // 3], normals[second // 3])
+    sharp = cos <= math.cos(math.radians(CREASE_DEG))
+    if not sharp.any():
+        return np.zeros(0)
+    ends = table.edges[table.counts == 2][sharp]
+    plan = to_plan(np.asarray(target.vertices, float), target.up)
+    p, q = plan[ends[:, 0]], plan[ends[:, 1]]
+    d = q - p
+    along = np.abs(d @ np.asarray(sweep, float))
+    across = np.abs(d @ np.asarray(wire, float))
+    # a vertical edge of a step wall has no plan length: only edges with plan length count
+    keep = (along > 0) & (across <= along * math.tan(math.radians(ALONG_SWEEP_DEG)))
+    if not keep.any():
+        return np.zeros(0)
+    t = (0.5 * (p[keep] + q[keep])) @ np.asarray(wire, float)
+    length = along[keep]
+    order = np.argsort(t, kind="stable")
+    t, length = t[order], length[order]
+    starts = np.flatnonzero(np.r_[True, np.diff(t) > _GATHER_MM])
+    out = []
+    for lo, hi in zip(starts, np.r_[starts[1:], len(t)], strict=True):
+        w = length[lo:hi]
+        # a step wall's two creases (foot and top) lie on the same line: one break line
+        if w.sum() < min_length_mm:
+            continue
+        cum = np.cumsum(w)
+        out.append(float(t[lo + int(np.searchsorted(cum, 0.5 * cum[-1]))]))
+    return np.asarray(out, float)
+
+
+def segments(
+    lo: float, hi: float, lines: np.ndarray, min_width_mm: float
+) -> list[tuple[float, float]]:
+    """``[lo, hi]`` cut at the break ``lines`` (mm) into segments of at least ``min_width_mm``.
+
+    A line closer than ``min_width_mm`` to an end or to an earlier kept line is left out
+    (the narrowest strip could not end there without straddling it anyway)."""
+    cuts = [float(lo)]
+    for s in np.sort(np.asarray(lines, float)):
+        if s - cuts[-1] >= min_width_mm and hi - s >= min_width_mm:
+            cuts.append(float(s))
+    cuts.append(float(hi))
+    return list(zip(cuts[:-1], cuts[1:], strict=True))
