@@ -263,3 +263,15 @@ def test_section_distance_is_exact_where_rulings_fan(fan):
     got = np.abs(_signed_to_sections(lo, hi, w, q))
     # shapely's distance (GEOS) tests every segment: the reference
     np.testing.assert_allclose(got, _brute_distance(lo, hi, w, q), atol=1e-9)
+
+
+def test_a_piece_without_a_block_says_so_in_its_header():
+    # the allocation found no stock block for the blank (a no-stock-block finding): the
+    # program's header must say that, not leave a bare placeholder
+    left = mesa(200.0, 800.0, 100.0, 100.0, 150.0)
+    piece = make_piece(left, left.copy(), BLOCK_X, BLOCK_Y, BLOCK_Z)
+    assert piece.stock is None
+    program, _, _ = build_program(piece, JOB)
+    stock = dict(program.header)["stock"]
+    assert "none on hand" in stock and "findings" in stock
+    assert "(" not in stock and ")" not in stock  # it goes into a G-code comment

@@ -372,7 +372,7 @@ def build_program(
     kerf_r = kerf_mm(timing.right_speed_mm_s[cut_moves], wire)
     if check.ok or check.fixable:
         header = (
-            ("stock", str(piece.stock or "-")),
+            ("stock", str(piece.stock or "none on hand takes this blank, see the plan findings")),
             ("block x mm", f"{block.x_mm[0] + shift:.3f} {block.x_mm[1] + shift:.3f}"),
             ("block y mm", f"{block.y_mm[0]:.3f} {block.y_mm[1]:.3f}"),
             ("block faces z mm", f"{z_l:.3f} {z_r:.3f}"),
