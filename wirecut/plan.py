@@ -228,6 +228,7 @@ def make_plan(
     for pp, tf in pmap(programmed, split.pieces, done=done, meanwhile=_import_writers):
         findings.extend(tf)
         plans.append(pp)
+    findings.extend(_outside_pieces(target, plans))
 
     for pp in plans:
         r = pp.deviation
@@ -417,6 +418,35 @@ def _toolpath_json(t) -> dict:
         "kerf_iterations": int(t.iterations),
         "shift_x_mm": _f(t.shift_x_mm),
     }
+
+
+#: Share of the target's area outside every piece above which the plan says so.
+_OUTSIDE_SHARE = 1e-3
+
+
+def _outside_pieces(target, plans) -> list[Finding]:
+    """An info finding when some of the surface lies in no piece: faces standing vertical on
+    the pieces' outlines (a step on a cut between two pieces belongs to neither; their
+    blanks' end faces form it), or regions where nothing was fitted."""
+    total = float(getattr(target, "area_mm2", 0.0))
+    if not plans or total <= 0:
+        return []
+    outside = total - sum(float(pp.deviation.area_mm2) for pp in plans)
+    if outside <= _OUTSIDE_SHARE * total:
+        return []
+    up = np.asarray(target.up, float)
+    flat = np.abs(np.asarray(target.face_normals, float) @ up) < 1e-6
+    vertical = float(np.asarray(target.face_areas)[flat].sum())
+    return [
+        Finding(
+            "surface-outside-pieces",
+            f"{outside / 1e6:.3f} m^2 ({outside / total * 100:.1f} % of the surface) lies in "
+            f"no piece, {min(vertical, outside) / 1e6:.3f} m^2 of it in faces standing "
+            "vertical: no wire cuts it; a vertical step on a cut between two pieces is formed "
+            "by their blanks' end faces",
+            severity=Severity.INFO,
+        )
+    ]
 
 
 def plan_json(plan: Plan) -> dict:

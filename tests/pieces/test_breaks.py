@@ -9,13 +9,13 @@ import pytest
 from shapes_pieces import height_target, quick_job
 
 import wirecut.pieces.split as split_module
+from wirecut.geometry.creases import break_lines, segments
 from wirecut.geometry.frames import DirectionFrame
 from wirecut.geometry.mesh import target_from_arrays
-from wirecut.pieces.breaks import break_lines, segments
 from wirecut.pieces.split import StripPlan, greedy_strips, split_pieces
 
 UP = np.array([0.0, 0.0, 1.0])
-SWEEP_X = (np.array([1.0, 0.0]), np.array([0.0, 1.0]))  # sweep along x, wire along y
+WIRE_Y = np.array([0.0, 1.0])  # the wire along y, the sweep along x
 
 
 def frame(deg: float) -> DirectionFrame:
@@ -64,23 +64,22 @@ def step_target(job=None, y_step: float = 330.0):
 
 
 def test_a_ridge_along_the_sweep_is_a_break_line() -> None:
-    assert np.allclose(break_lines(roof(8.0), *SWEEP_X, 25.0), [300.0])
+    assert np.allclose(break_lines(roof(8.0), WIRE_Y, 25.0), [300.0])
 
 
 def test_a_gentle_ridge_is_not() -> None:
     # a crease of 2 x 2 deg stays under CREASE_DEG: the width search handles it as curvature
-    assert len(break_lines(roof(2.0), *SWEEP_X, 25.0)) == 0
+    assert len(break_lines(roof(2.0), WIRE_Y, 25.0)) == 0
 
 
 def test_a_ridge_along_the_wire_is_no_break() -> None:
     # the wire lies in that ridge: it is a ruling, not a line a strip must end at
-    sweep_y = (np.array([0.0, 1.0]), np.array([1.0, 0.0]))
-    assert len(break_lines(roof(8.0), *sweep_y, 25.0)) == 0
+    assert len(break_lines(roof(8.0), np.array([1.0, 0.0]), 25.0)) == 0
 
 
 def test_a_step_is_one_break_line() -> None:
     # the wall's foot and top are two creases on the same line
-    assert np.allclose(break_lines(step_target(), *SWEEP_X, 25.0), [330.0])
+    assert np.allclose(break_lines(step_target(), WIRE_Y, 25.0), [330.0])
 
 
 def test_segments_keep_every_part_at_least_the_minimum_width() -> None:
@@ -166,3 +165,42 @@ def test_the_final_fit_overrules_a_failed_coarse_fit() -> None:
     assert all(p.extra["feasible"] for p in result.pieces)
     assert not result.findings
     assert result.infeasible_area_mm2 == 0.0
+
+
+def test_a_stepped_mold_is_planned_within_tolerance_and_its_wall_is_accounted_for() -> None:
+    # the whole job on the step, wire across it (the only direction whose sections have no
+    # vertical wall): every piece gets a program within tolerance, nothing needs attention,
+    # and the wall's area is named as lying in no piece
+    from wirecut.plan import make_plan
+
+    job = quick_job()
+    target = step_target(job)
+    plan = make_plan(target, job)
+    tol = job.tolerance.surface_mm
+    assert plan.pieces
+    for pp in plan.pieces:
+        assert pp.program is not None
+        assert pp.deviation.max_abs_mm <= tol
+    attention = [f for f in plan.findings if f.severity.value != "info"]
+    assert not attention, attention
+    wall = 600.0 * 80.0  # mm^2, by construction
+    outside = [f for f in plan.findings if f.code == "surface-outside-pieces"]
+    assert len(outside) == 1
+    assert f"{wall / 1e6:.3f} m^2" in outside[0].message
+
+
+def test_the_direction_search_lays_its_trial_strips_between_break_lines() -> None:
+    # across the step the trial strips of the quick score end at the wall, as the split's
+    # will: that direction keeps all its area within tolerance; without the break lines
+    # its strips straddle the wall and it lost to the wire along the step
+    from wirecut.ruled.direction import _coarse_samples, _score
+
+    job = quick_job()
+    target = step_target(job)
+    across = frame(90.0)
+    samples = _coarse_samples(target, across)
+    lines = break_lines(target, WIRE_Y, 25.0)
+    with_lines = _score(samples, job, lines=lines)
+    without = _score(samples, job)
+    assert with_lines[0] >= 0.995
+    assert without[0] < with_lines[0] - 0.05

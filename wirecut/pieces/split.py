@@ -34,9 +34,9 @@ from shapely.geometry import Polygon
 from wirecut.config import JobProfile
 from wirecut.errors import JobError
 from wirecut.findings import Finding, Severity
+from wirecut.geometry.creases import break_lines, segments
 from wirecut.geometry.frames import DirectionFrame, plan_basis, rigid
 from wirecut.geometry.plan_shapes import collector_paused, triangle_polygons
-from wirecut.pieces.breaks import break_lines, segments
 from wirecut.pieces.piece import Block, Piece
 from wirecut.pieces.region import (
     extent_along,
@@ -156,7 +156,7 @@ def greedy_strips(
         result.
     end_is_cut : bool
         ``hi`` is a cut the last strip must end at (a break line, see
-        :mod:`wirecut.pieces.breaks`), not the footprint's edge: a rest narrower than the
+        :mod:`wirecut.geometry.creases`), not the footprint's edge: a rest narrower than the
         minimum width is then made up by moving the cut before it back (the strip before
         stays feasible, being narrower), instead of widening the last strip beyond ``hi``.
 
@@ -778,8 +778,8 @@ def split_pieces(
                 return [r for r, _ in out]
 
             # the strips are searched between the creases along the sweep, which no strip
-            # can straddle (wirecut.pieces.breaks)
-            spans = segments(lo, hi, break_lines(target, sweep, wire, 0.25 * min_w), min_w)
+            # can straddle (wirecut.geometry.creases)
+            spans = segments(lo, hi, break_lines(target, wire, 0.25 * min_w), min_w)
             parts = []
             for k, (a, b) in enumerate(spans):
                 last = k == len(spans) - 1

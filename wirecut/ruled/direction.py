@@ -36,6 +36,7 @@ import numpy as np
 
 from wirecut.config import JobProfile, MoldSide, ToleranceSpec
 from wirecut.errors import JobError
+from wirecut.geometry.creases import break_lines, crease_edges, segments
 from wirecut.geometry.frames import DirectionFrame, rigid, to_plan
 from wirecut.geometry.vectors import cross
 from wirecut.ruled.fit import fit_cut
@@ -208,7 +209,9 @@ def fit_tolerance(job: JobProfile) -> ToleranceSpec:
     return t
 
 
-def predicted_width_mm(analysis: Any, wire_part: np.ndarray, job: JobProfile) -> float:
+def predicted_width_mm(
+    analysis: Any, wire_part: np.ndarray, job: JobProfile, skip: np.ndarray | None = None
+) -> float:
     """Strip width along ``wire_part`` (3,) the curvature allows, mm (inf if unknown).
 
     Normal curvature along the wire at every vertex by Euler's formula,
@@ -216,7 +219,8 @@ def predicted_width_mm(analysis: Any, wire_part: np.ndarray, job: JobProfile) ->
     tangent plane) and the first principal direction; the chord reach of each vertex from
     :func:`chord_reach_mm`; the strip must hold everywhere along the sweep, so the width is the
     area-weighted 2nd percentile of those reaches (a low percentile rather than the minimum,
-    which one noisy vertex would set).
+    which one noisy vertex would set). ``skip`` (n,) bool leaves vertices out: those next to a
+    break line, where strips end anyway and the quadric fits straddle the crease.
     """
     curv = getattr(analysis, "curvature", None)
     if curv is None:
@@ -225,6 +229,8 @@ def predicted_width_mm(analysis: Any, wire_part: np.ndarray, job: JobProfile) ->
     d1, d2 = np.asarray(curv.dir1, float), np.asarray(curv.dir2, float)
     area = np.asarray(curv.vertex_area, float)
     ok = np.isfinite(k1) & np.isfinite(k2) & np.all(np.isfinite(d1), axis=1) & (area > 0)
+    if skip is not None and len(skip) == len(ok):
+        ok &= ~skip
     if not ok.any():
         return math.inf
     c1 = d1[ok] @ wire_part
@@ -240,17 +246,32 @@ def predicted_width_mm(analysis: Any, wire_part: np.ndarray, job: JobProfile) ->
 
 
 def _score(
-    samples: TargetSamples, job: JobProfile, width_hint: float = math.inf
+    samples: TargetSamples,
+    job: JobProfile,
+    width_hint: float = math.inf,
+    lines: np.ndarray | None = None,
 ) -> tuple[float, float, int, int]:
     """(feasible area share, max |deviation| mm, strips, estimated pieces) of strips along the
     wire, at the trial width: the usable span, narrowed to ``width_hint`` (the width the
-    curvature allows) but never below ``pieces.min_width_mm``."""
+    curvature allows) but never below ``pieces.min_width_mm``. With break ``lines`` (wire
+    coordinates, mm: :func:`wirecut.geometry.creases.break_lines`) the strips are laid out
+    between them, as the split will, and the samples on a line (a step's wall, the crease
+    itself) are left out."""
     z = samples.points[:, 2]
     z0, z1 = float(z.min()), float(z.max())
     span = max(z1 - z0, 1e-6)
     width = min(job.usable_width_mm, span, max(width_hint, job.pieces.min_width_mm))
-    n = max(int(math.ceil(span / width - 1e-9)), 1)
-    edges = np.linspace(z0, z1, n + 1)
+    spans = [(z0, z1)]
+    if lines is not None and len(lines):
+        spans = segments(z0, z1, lines, job.pieces.min_width_mm)
+        eps = 1e-6 * (1.0 + max(abs(z0), abs(z1)))
+        off = np.abs(z[:, None] - np.asarray(lines, float)[None, :]).min(axis=1) > eps
+        samples, z = samples.subset(off), z[off]
+    edges = [spans[0][0]]
+    for a, b in spans:
+        k = max(int(math.ceil((b - a) / width - 1e-9)), 1)
+        edges.extend(np.linspace(a, b, k + 1)[1:])
+    n = len(edges) - 1
     total = samples.area_mm2
     feasible, worst = 0.0, 0.0
     for i, (a, b) in enumerate(zip(edges[:-1], edges[1:], strict=True)):
@@ -308,12 +329,22 @@ def search_direction(
         raise JobError("no wire direction candidates to score")
     first = DirectionFrame.from_angle(cands[0][0], up, side)
     base = _coarse_samples(target, first)
+    creased = len(crease_edges(target)[0]) > 0  # once, before the workers are forked
+    plan = to_plan(np.asarray(target.vertices, float), up) if creased else None
+    near = 3.0 * float(getattr(target, "mean_edge_mm", 0.0)) if creased else 0.0
 
     def scored(angle: float):
         frame = DirectionFrame.from_angle(angle, up, side)
         rel = rigid(frame.rotation @ first.rotation.T, np.zeros(3))
-        hint = predicted_width_mm(analysis, frame.wire_part, job)
-        return frame, hint, _score(base.transformed(rel), job, hint)
+        lines = skip = None
+        if creased:
+            wire = to_plan(frame.wire_part[None, :], up)[0]
+            lines = break_lines(target, wire, 0.25 * job.pieces.min_width_mm)
+            if len(lines):
+                t = plan @ (wire / np.linalg.norm(wire))
+                skip = np.abs(t[:, None] - lines[None, :]).min(axis=1) <= near
+        hint = predicted_width_mm(analysis, frame.wire_part, job, skip)
+        return frame, hint, _score(base.transformed(rel), job, hint, lines)
 
     rows = []
     results = pmap(scored, [angle for angle, _ in cands], meanwhile=meanwhile)

@@ -22,13 +22,14 @@ dihedral angle of an edge is the angle between its two faces' normals.
 from __future__ import annotations
 
 import math
+import weakref
 from typing import Any
 
 import numpy as np
 
 from wirecut.geometry.frames import to_plan
 
-__all__ = ["CREASE_DEG", "ALONG_SWEEP_DEG", "break_lines", "segments"]
+__all__ = ["CREASE_DEG", "ALONG_SWEEP_DEG", "crease_edges", "break_lines", "segments"]
 
 #: An inner edge whose two faces' normals differ by at least this angle is a crease. A smooth
 #: surface meshed at an edge of 2 % of its radius of curvature bends 1.1 deg per edge; a crease
@@ -40,17 +41,53 @@ ALONG_SWEEP_DEG = 10.0
 _GATHER_MM = 1.0
 
 
-def break_lines(
-    target: Any, sweep: np.ndarray, wire: np.ndarray, min_length_mm: float
-) -> np.ndarray:
+_CREASES: weakref.WeakKeyDictionary = weakref.WeakKeyDictionary()
+
+
+def crease_edges(target: Any) -> tuple[np.ndarray, np.ndarray]:
+    """The plan midpoints (k, 2) mm and plan vectors (k, 2) mm of the target's crease edges
+    (inner edges whose faces' normals differ by at least :data:`CREASE_DEG`), computed once
+    per target (call it before worker processes are forked so that they inherit it)."""
+    try:
+        hit = _CREASES.get(target)
+    except TypeError:  # an object that cannot be weakly referenced: computed afresh
+        return _crease_edges(target)
+    if hit is None:
+        hit = _crease_edges(target)
+        _CREASES[target] = hit
+    return hit
+
+
+def _crease_edges(target: Any) -> tuple[np.ndarray, np.ndarray]:
+    none = (np.zeros((0, 2)), np.zeros((0, 2)))
+    table = getattr(target, "edge_table", None)
+    if table is None or len(target.faces) == 0:
+        return none
+    first, second = table.pairs()
+    if len(first) == 0:
+        return none
+    normals = np.asarray(target.face_normals, float)
+    cos = np.einsum("ij,ij->i", normals[first // 3], normals[second // 3])
+    sharp = cos <= math.cos(math.radians(CREASE_DEG))
+    if not sharp.any():
+        return none
+    ends = table.edges[table.counts == 2][sharp]
+    up = np.asarray(target.up, float)
+    p = to_plan(np.asarray(target.vertices, float)[ends[:, 0]], up)
+    q = to_plan(np.asarray(target.vertices, float)[ends[:, 1]], up)
+    return 0.5 * (p + q), q - p
+
+
+def break_lines(target: Any, wire: np.ndarray, min_length_mm: float) -> np.ndarray:
     """Wire coordinates (k,) mm, ascending, of the creases that run along the sweep.
 
     Parameters
     ----------
     target : TargetSurface
         Needs ``vertices``, ``faces``, ``face_normals``, ``up`` and ``edge_table``.
-    sweep, wire : (2,) float, unit
-        The plan axes of a wire direction (:func:`wirecut.pieces.region.plan_axes`).
+    wire : (2,) float
+        The wire's plan vector (:func:`wirecut.pieces.region.plan_axes`); the coordinate
+        returned is ``p_plan . wire`` with it made unit, the sweep is perpendicular to it.
     min_length_mm : float
         Least plan length along the sweep of a break line; shorter ones are left out.
 
@@ -58,28 +95,19 @@ def break_lines(
     -------
     (k,) float, mm: the length-weighted median wire coordinate of each break line.
     """
-    table = getattr(target, "edge_table", None)
-    if table is None or len(target.faces) == 0:
+    mid, d = crease_edges(target)
+    if len(mid) == 0:
         return np.zeros(0)
-    first, second = table.pairs()
-    if len(first) == 0:
-        return np.zeros(0)
-    normals = np.asarray(target.face_normals, float)
-    cos = np.einsum("ij,ij->i", normals[first // 3], normals[second // 3])
-    sharp = cos <= math.cos(math.radians(CREASE_DEG))
-    if not sharp.any():
-        return np.zeros(0)
-    ends = table.edges[table.counts == 2][sharp]
-    plan = to_plan(np.asarray(target.vertices, float), target.up)
-    p, q = plan[ends[:, 0]], plan[ends[:, 1]]
-    d = q - p
-    along = np.abs(d @ np.asarray(sweep, float))
-    across = np.abs(d @ np.asarray(wire, float))
+    wire = np.asarray(wire, float)
+    wire = wire / np.linalg.norm(wire)
+    sweep = np.array([-wire[1], wire[0]])
+    along = np.abs(d @ sweep)
+    across = np.abs(d @ wire)
     # a vertical edge of a step wall has no plan length: only edges with plan length count
     keep = (along > 0) & (across <= along * math.tan(math.radians(ALONG_SWEEP_DEG)))
     if not keep.any():
         return np.zeros(0)
-    t = (0.5 * (p[keep] + q[keep])) @ np.asarray(wire, float)
+    t = mid[keep] @ wire
     length = along[keep]
     order = np.argsort(t, kind="stable")
     t, length = t[order], length[order]
