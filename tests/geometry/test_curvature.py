@@ -163,3 +163,72 @@ def test_cholesky_solve_singular_system_gives_no_nan():
     a[0, 0] = 1.0  # rank one: the other pivots are held instead of square roots of negatives
     b = np.ones((3, 2))
     assert np.all(np.isfinite(cholesky_solve(a, b)))
+
+
+def _folded(n_x: int = 61, fold_mm: float = 150.0, rise: float = 40.0, amp: float = 60.0):
+    """A folded plate z = amp sin(pi x / L) + rise * tri(y / fold): facets z = f(x) + c y,
+    c = +-rise / fold, meeting in curved folds along x every ``fold`` mm."""
+    length = 1800.0
+    xs = np.linspace(0.0, length, n_x)
+    ys = np.linspace(0.0, 4 * fold_mm, 4 * 15 + 1)
+    gx, gy = np.meshgrid(xs, ys, indexing="ij")
+    tri = np.abs(((gy / fold_mm) % 2.0) - 1.0)
+    gz = 200.0 + amp * np.sin(np.pi * gx / length) + rise * tri
+    v = np.column_stack([gx.ravel(), gy.ravel(), gz.ravel()])
+    idx = np.arange(len(xs) * len(ys)).reshape(len(xs), len(ys))
+    a, b = idx[:-1, :-1].ravel(), idx[1:, :-1].ravel()
+    c, d = idx[1:, 1:].ravel(), idx[:-1, 1:].ravel()
+    f = np.vstack([np.column_stack([a, b, c]), np.column_stack([a, c, d])])
+    return v, f, length, amp, rise / fold_mm
+
+
+def test_a_fold_does_not_bend_its_facets():
+    # each facet z = f(x) + c y is a cylinder: K = 0 and the one principal curvature is
+    # (1 + c^2) f'' / (1 + f'^2 + c^2)^(3/2) (mean curvature of a graph, do Carmo sec. 3-3);
+    # at x = L / 2, f' = 0: |k| = amp (pi / L)^2 / sqrt(1 + c^2). Vertices beside a fold
+    # must read their own facet's, not a blend of both (which a fit across the fold gives)
+    v, f, length, amp, c = _folded()
+    target, cu = _curv(v, f)
+    mid = np.isclose(v[:, 0], length / 2)
+    interior = mid & (v[:, 1] > 1.0) & (v[:, 1] < v[:, 1].max() - 1.0)
+    expected = amp * (np.pi / length) ** 2 / np.sqrt(1.0 + c * c)
+    big = np.maximum(np.abs(cu.k1), np.abs(cu.k2))[interior]
+    small = np.minimum(np.abs(cu.k1), np.abs(cu.k2))[interior]
+    assert np.allclose(big, expected, rtol=0.02)
+    assert np.all(small < 0.02 * expected)
+    # the patch Gaussian curvature beside the folds stays that of a developable facet
+    assert np.nanmax(np.abs(cu.gaussian_patch[interior])) < 1e-3 * expected**2
+    # the angle defects are the mesh's own, folds included: Gaussian curvature is unchanged
+    assert np.array_equal(cu.gaussian, _curv_uncut(target).gaussian, equal_nan=True)
+
+
+def _curv_uncut(target):
+    import wirecut.geometry.curvature as curvature
+
+    was = curvature.CREASE_SHARE
+    curvature.CREASE_SHARE = -1.0  # every mesh taken for a smooth tessellation
+    try:
+        return vertex_curvature(target)
+    finally:
+        curvature.CREASE_SHARE = was
+
+
+def test_a_fit_across_the_fold_is_what_the_cut_avoids():
+    # the comparison: without the cut, the vertices beside the folds read curvatures many
+    # times the facet's own
+    v, f, length, amp, c = _folded()
+    target, _ = _curv(v, f)
+    cu = _curv_uncut(target)
+    beside = np.isclose(v[:, 1] % 150.0, 10.0)  # one row from a fold
+    expected = amp * (np.pi / length) ** 2 / np.sqrt(1.0 + c * c)
+    assert np.median(np.maximum(np.abs(cu.k1), np.abs(cu.k2))[beside]) > 5 * expected
+
+
+def test_a_coarse_smooth_mesh_is_not_cut_open():
+    # an icosphere of 80 faces bends about 20 deg at every edge: a tessellation, not creases
+    # (CREASE_SHARE), so it is fitted as before
+    from wirecut.geometry.curvature import _crease_cut
+
+    v, f = icosphere(700.0, 1)
+    target, _ = target_from_arrays(v, f, JOB)
+    assert _crease_cut(target) is None

@@ -204,3 +204,47 @@ def test_the_direction_search_lays_its_trial_strips_between_break_lines() -> Non
     without = _score(samples, job)
     assert with_lines[0] >= 0.995
     assert without[0] < with_lines[0] - 0.05
+
+
+def test_pinned_knots_move_the_nearest_knot_and_keep_half_a_spacing() -> None:
+    from wirecut.ruled.fit import pinned_knots
+
+    knots = np.linspace(0.0, 100.0, 11)  # every 10 mm
+    moved = pinned_knots(knots, np.array([33.0, 61.0, 2.0, 98.0, 500.0]))
+    assert moved[3] == 33.0 and moved[6] == 61.0
+    # 2 and 98 would move an end knot (or leave a gap under half a spacing): left alone
+    assert moved[0] == 0.0 and moved[-1] == 100.0 and moved[1] == 10.0 and moved[9] == 90.0
+    assert np.all(np.diff(moved) >= 5.0)
+
+
+def test_a_ridge_along_the_wire_is_followed_by_a_knot() -> None:
+    # a gable of two planes meeting along the wire: with a knot on the ridge the cut is the
+    # gable itself; with the knots evenly spaced and the ridge midway between two of them,
+    # the chord cuts the corner off by about (offset / 2) x (slope change) / 2
+    from wirecut.geometry.frames import rigid
+    from wirecut.ruled.fit import fit_cut
+    from wirecut.ruled.sampling import sample_target
+
+    slope = 0.5
+    xs = np.linspace(0.0, 600.0, 61)
+    ys = np.linspace(0.0, 400.0, 21)
+    job = quick_job()
+    target = height_target(xs, ys, lambda x, y: 300.0 - slope * np.abs(x - 300.0), job)
+    along = frame(90.0)  # the wire along y, the sweep along x
+    transform = rigid(along.rotation, np.array([0.0, 0.0, 0.0]))
+    samples = sample_target(target, transform, spacing_mm=5.0)
+    z = samples.points[:, 2]
+    x = samples.points[:, 0]
+    ridge_x = float(x[np.argmax(samples.points[:, 1])])  # machine x of the ridge
+    lo, hi = float(x.min()), float(x.max())
+    # knots every 10 mm from lo - 2: the ridge sits 5 mm from the nearest
+    x_range = (ridge_x - 305.0 - 2.0 * 10.0, ridge_x + 305.0 + 2.0 * 10.0)
+    assert x_range[0] < lo and x_range[1] > hi
+    args = (samples, float(z.min()), float(z.max()), transform, job.tolerance)
+    plain = fit_cut(*args, x_range=x_range, ruling_spacing_mm=10.0, correspondence=False)
+    pinned = fit_cut(*args, x_range=x_range, ruling_spacing_mm=10.0, correspondence=False,
+                     knots_at=np.array([ridge_x]))  # fmt: skip
+    found = break_lines(target, np.array([1.0, 0.0]), 25.0)  # creases across x: the ridge
+    assert np.allclose(found, [300.0])
+    assert pinned.report.max_abs_mm < 1e-6
+    assert plain.report.max_abs_mm > 0.5  # 5 mm off a 2 x 0.5 slope change: about 1.2 mm

@@ -88,12 +88,15 @@ def break_lines(target: Any, wire: np.ndarray, min_length_mm: float) -> np.ndarr
     wire : (2,) float
         The wire's plan vector (:func:`wirecut.pieces.region.plan_axes`); the coordinate
         returned is ``p_plan . wire`` with it made unit, the sweep is perpendicular to it.
+        Given the sweep's plan vector instead, the same function returns the sweep
+        coordinates of the creases that run along the wire (a ridge or a valley the wire
+        lies in: where the cut's knots go, :func:`wirecut.ruled.fit.pinned_knots`).
     min_length_mm : float
-        Least plan length along the sweep of a break line; shorter ones are left out.
+        Least plan length across ``wire`` of a line; shorter ones are left out.
 
     Returns
     -------
-    (k,) float, mm: the length-weighted median wire coordinate of each break line.
+    (k,) float, mm: the length-weighted median coordinate of each line.
     """
     mid, d = crease_edges(target)
     if len(mid) == 0:

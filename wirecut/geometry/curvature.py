@@ -294,6 +294,83 @@ def _fit_chunk(columns, normals, t1, t2, indptr, indices, start: int, stop: int)
     return sol
 
 
+#: A mesh whose share of crease edges (see :data:`wirecut.geometry.creases.CREASE_DEG`) is
+#: above this is taken for a coarse tessellation of a smooth surface, not a surface with
+#: creases: its fits and patches are not cut.
+CREASE_SHARE = 0.2
+
+
+@dataclass(frozen=True, eq=False)
+class _CreaseCut:
+    """The target cut open along its creases: each vertex on a crease has one copy per side.
+
+    ``source`` (c,) names each copy's vertex, ``pick`` (n,) the copy each vertex takes its fit
+    from (the side with the most face area around it), ``on_crease`` (n,) the vertices with
+    more than one copy; ``vertices``, ``normals`` (area-weighted over each side's faces) and
+    ``ring`` (the 2-ring on the cut mesh) are per copy."""
+
+    vertices: np.ndarray
+    normals: np.ndarray
+    ring: sparse.csr_matrix
+    source: np.ndarray
+    pick: np.ndarray
+    on_crease: np.ndarray
+
+
+def _crease_cut(target: TargetSurface) -> _CreaseCut | None:
+    """The target cut along its crease edges, or None when it has none or when more than
+    :data:`CREASE_SHARE` of its inner edges are creases.
+
+    A quadric fitted across a crease (a fold, the foot or top of a step) sees both sides and
+    reports a curvature neither has, and the patch sums of the Gaussian curvature take in the
+    crease's own defect: a folded plate of developable facets read 71 % developable. The
+    faces are grouped into the connected sides between creases (scipy's connected components
+    over the face adjacency without the crease edges), each vertex gets one copy per side it
+    touches, and the fits and patches run on that cut mesh."""
+    from scipy.sparse.csgraph import connected_components
+
+    from wirecut.geometry.creases import CREASE_DEG
+
+    table = target.edge_table
+    first, second = table.pairs()
+    if len(first) == 0:
+        return None
+    fn = np.asarray(target.face_normals, float)
+    fa, fb = first // 3, second // 3
+    sharp = np.einsum("ij,ij->i", fn[fa], fn[fb]) <= np.cos(np.radians(CREASE_DEG))
+    if not sharp.any() or sharp.mean() > CREASE_SHARE:
+        return None
+    m, n = len(target.faces), len(target.vertices)
+    keep = ~sharp
+    graph = sparse.coo_matrix((np.ones(int(keep.sum())), (fa[keep], fb[keep])), shape=(m, m))
+    sides, side = connected_components(graph, directed=False)
+    faces = np.asarray(target.faces, np.int64)
+    key = faces * sides + side[:, None]
+    copies, inverse = np.unique(key.ravel(), return_inverse=True)
+    cut_faces = inverse.reshape(-1, 3)
+    source = copies // sides
+    c = len(copies)
+    areas = np.asarray(target.face_areas, float)
+    weighted = fn * areas[:, None]
+    acc = np.zeros((c, 3))
+    for k in range(3):
+        np.add.at(acc, cut_faces[:, k], weighted)
+    norm = np.linalg.norm(acc, axis=1, keepdims=True)
+    normals = np.divide(acc, norm, out=np.zeros_like(acc), where=norm > 0)
+    around = np.bincount(cut_faces.ravel(), weights=np.repeat(areas, 3), minlength=c)
+    order = np.lexsort((-around, source))  # by vertex, its widest side first
+    starts = np.flatnonzero(np.r_[True, np.diff(source[order]) != 0])
+    pick = np.empty(n, np.int64)
+    pick[source[order[starts]]] = order[starts]
+    on_crease = np.bincount(source, minlength=n) > 1
+    from wirecut.geometry.mesh import edge_table
+
+    ring = _two_ring(edge_table(cut_faces, c).edges, c)
+    return _CreaseCut(
+        np.asarray(target.vertices, float)[source], normals, ring, source, pick, on_crease
+    )
+
+
 def _fit_quadrics(
     vertices: np.ndarray, normals: np.ndarray, ring: sparse.csr_matrix, meanwhile=None
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -355,8 +432,12 @@ def vertex_curvature(target: TargetSurface, after_fit=None) -> Curvature:
     """
     v, f = target.vertices, target.faces
     n = len(v)
-    normals = target.vertex_normals
-    ring = _two_ring(target.edge_table.edges, n)
+    cut = _crease_cut(target)
+    if cut is None:
+        fit_v, normals = v, target.vertex_normals
+        ring = _two_ring(target.edge_table.edges, n)
+    else:  # the fits and patches of each side of a crease see that side only
+        fit_v, normals, ring = cut.vertices, cut.normals, cut.ring
     angle: dict[str, np.ndarray] = {}
 
     def angles() -> None:  # the defect curvature, while the quadrics are fitted
@@ -367,7 +448,7 @@ def vertex_curvature(target: TargetSurface, after_fit=None) -> Curvature:
         with np.errstate(divide="ignore", invalid="ignore"):
             angle["gauss"] = np.where(~boundary & (area > 0), defect / area, np.nan)
 
-    coef, t1, t2 = _fit_quadrics(v, normals, ring, meanwhile=angles)
+    coef, t1, t2 = _fit_quadrics(fit_v, normals, ring, meanwhile=angles)
     if after_fit is not None:
         after_fit()
     area, defect, gauss = angle["area"], angle["defect"], angle["gauss"]
@@ -375,11 +456,18 @@ def vertex_curvature(target: TargetSurface, after_fit=None) -> Curvature:
     # sums over the patch: the ring's plus the vertex's own (no ring-plus-identity matrix)
     inner_defect = np.where(interior, defect, 0.0)
     inner_area = np.where(interior, area, 0.0)
+    if cut is not None:
+        # a crease's own defects are the crease's, not either side's: left out of the patches
+        inner_defect = np.where(cut.on_crease, 0.0, inner_defect)[cut.source]
+        inner_area = np.where(cut.on_crease, 0.0, inner_area)[cut.source]
     patch_area = ring @ inner_area + inner_area
     with np.errstate(divide="ignore", invalid="ignore"):
         gauss_patch = np.where(
             patch_area > 0, (ring @ inner_defect + inner_defect) / patch_area, np.nan
         )
+    if cut is not None:  # each vertex takes the values of its copy on its widest side
+        coef, t1, t2 = coef[cut.pick], t1[cut.pick], t2[cut.pick]
+        normals, gauss_patch = normals[cut.pick], gauss_patch[cut.pick]
     a, b, c, d, e = coef[:, :5].T
     E, F, G = 1.0 + d * d, d * e, 1.0 + e * e
     g = np.sqrt(1.0 + d * d + e * e)

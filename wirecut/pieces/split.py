@@ -637,7 +637,10 @@ def _skew_of(fit: Any, transform: np.ndarray) -> tuple[np.ndarray, np.ndarray] |
     return mid, cut.right[:, 0] - cut.left[:, 0]
 
 
-def _fit(fitter, target, region, block, transform, job, spacing, enough_mm=None, skew_hint=None):
+def _fit(
+    fitter, target, region, block, transform, job, spacing, enough_mm=None, skew_hint=None,
+    ridges=None,
+):  # fmt: skip
     from wirecut.ruled.sampling import judging_samples, sample_target
 
     if spacing is None:
@@ -653,6 +656,8 @@ def _fit(fitter, target, region, block, transform, job, spacing, enough_mm=None,
     more = {} if enough_mm is None else {"enough_mm": enough_mm}
     if skew_hint is not None:
         more["skew_hint"] = skew_hint
+    if ridges is not None and len(ridges):  # sweep coordinates: machine x less the shift
+        more["knots_at"] = np.asarray(ridges, float) + float(transform[0, 3])
     try:
         return fitter(
             samples, block.z_mm[0], block.z_mm[1], transform, job.tolerance, x_range=block.x_mm,
@@ -743,8 +748,12 @@ def split_pieces(
     for frame in frames:
         sweep, wire = plan_axes(frame, surf.up)
         lo, hi = extent_along(surf.fp, wire)
+        # creases along the wire: the cuts' knots go there (wirecut.geometry.creases)
+        ridges = break_lines(target, sweep, 0.25 * min_w)
 
-        def probe(ab: tuple[float, float], frame=frame, wire=wire) -> tuple[float, Any]:
+        def probe(
+            ab: tuple[float, float], frame=frame, wire=wire, ridges=ridges
+        ) -> tuple[float, Any]:
             """(the strip's coarse-fit deviation over its budget, feasible when <= 1; the
             skew of its rulings when they are skewed, as a hint for the pieces' final fits).
             The fit stops at the first cut within the budget."""
@@ -755,7 +764,9 @@ def split_pieces(
             block, transform = _place(surf, region, frame, a, b, job)
             spacing = _coarse_spacing(surf, region.area, job, kappa)
             allowed = budget * tol
-            fit = _fit(fitter, target, region, block, transform, job, spacing, allowed)
+            fit = _fit(
+                fitter, target, region, block, transform, job, spacing, allowed, ridges=ridges
+            )
             if fit is None:
                 return 0.0, None
             return float(fit.report.max_abs_mm) / allowed, _skew_of(fit, transform)
@@ -791,7 +802,7 @@ def split_pieces(
             plan = StripPlan.joined(parts)
         layout = _layout(surf, frame, plan.cuts, job)
         bound = strip_count_bound(hi - lo, _reach(analysis), max_w)
-        trials.append((frame, plan, layout, bound, hints))
+        trials.append((frame, plan, layout, bound, hints, ridges))
         report("split", len(trials), len(frames))
 
     fewest = min(len(t[2]) for t in trials)
@@ -812,7 +823,7 @@ def split_pieces(
         )
         for t in trials
     )
-    frame, plan, layout, bound, _ = best
+    frame, plan, layout, bound, _, _ = best
     if plan.count < bound:
         findings.append(
             Finding(
@@ -835,7 +846,7 @@ def split_pieces(
 
 def _build(surf, trial, target, job, fitter, report):
     """Final pieces of one direction: blocks, full-density fits, volumes, findings."""
-    frame, plan, layout, _, hints = trial
+    frame, plan, layout, _, hints, ridges = trial
     pieces: list[Piece] = []
     findings: list[Finding] = []
     bad_area = 0.0
@@ -848,7 +859,7 @@ def _build(surf, trial, target, job, fitter, report):
         hint = hints.get((a, b))
         if hint is not None:  # the strip's skew, from its frame to this piece's
             hint = (hint[0] + transform[0, 3], hint[1])
-        fit = _fit(fitter, target, poly, block, transform, job, None, skew_hint=hint)
+        fit = _fit(fitter, target, poly, block, transform, job, None, skew_hint=hint, ridges=ridges)
         return block, transform, fit
 
     report("fit", 0, len(layout))

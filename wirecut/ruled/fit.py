@@ -63,7 +63,7 @@ from wirecut.ruled.skew import (
     skew_solve,
 )
 
-__all__ = ["RuledFit", "fit_cut", "estimate_sweep_curvature", "ruling_spacing_for"]
+__all__ = ["RuledFit", "fit_cut", "estimate_sweep_curvature", "ruling_spacing_for", "pinned_knots"]
 
 _SMOOTH = 1e-3  # relative weight of the second-difference smoothing rows
 _MAX_LSQ_SAMPLES = 8_000
@@ -131,6 +131,27 @@ def estimate_sweep_curvature(points: np.ndarray, window_mm: float | None = None)
     return float(np.percentile(k, 95))
 
 
+def pinned_knots(knots: np.ndarray, at: np.ndarray) -> np.ndarray:
+    """Evenly spaced ``knots`` (k,) mm with the nearest inner knot moved onto each position of
+    ``at`` (mm) that lies inside them. A section with a corner (the target's crease) between
+    two knots is cut off by their chord, by about the corner's offset from the nearer knot
+    times the slope change over two; on the corner it is followed exactly. A move is kept
+    only while every gap stays at least half the spacing (so that the skew limits, set in
+    spacings, still keep neighbouring rulings from crossing)."""
+    out = np.array(knots, float)
+    k = len(out)
+    if k < 3:
+        return out
+    dx = float(out[1] - out[0])
+    for p in np.sort(at):
+        i = int(round((p - out[0]) / dx))
+        if not 1 <= i <= k - 2:
+            continue
+        if out[i - 1] + 0.5 * dx <= p <= out[i + 1] - 0.5 * dx:
+            out[i] = p
+    return out
+
+
 def ruling_spacing_for(tolerance_mm: float, sweep_curvature_per_mm: float) -> float:
     """Knot spacing H (mm) whose chord sag ``kappa H^2 / 8`` is 10 % of the tolerance,
     clamped to 2..100 mm."""
@@ -184,6 +205,7 @@ def fit_cut(
     correspondence: bool = True,
     enough_mm: float | None = None,
     skew_hint: tuple[np.ndarray, np.ndarray] | None = None,
+    knots_at: np.ndarray | None = None,
 ) -> RuledFit:
     """Fit a ruled cut between the faces ``z_left < z_right`` (mm, machine) to ``samples``.
 
@@ -214,6 +236,11 @@ def fit_cut(
         Ruling skew (right face x minus left face x) at machine x positions, from a fit of a
         region holding this one: step 3 also starts from it, and keeps whichever start ends
         better.
+    knots_at : (j,) float, mm, optional
+        Machine x of creases of the target that run along the wire (a ridge, a valley, the
+        foot of a wall across the sweep): the nearest knot of the even spacing is moved onto
+        each (:func:`pinned_knots`), so that the section's corner there is a knot of the cut
+        instead of being cut off by a chord.
 
     Returns
     -------
@@ -261,6 +288,8 @@ def fit_cut(
     k = max(int(math.ceil((x1 - x0) / h)) + 1, 2)
     knots = np.linspace(x0, x1, k)
     dx = float(knots[1] - knots[0])
+    if knots_at is not None and len(knots_at):
+        knots = pinned_knots(knots, np.asarray(knots_at, float))
     h = dx
 
     ny_t = np.clip(samples.normals[use, 1], 0.05, 1.0)
