@@ -29,7 +29,14 @@ import numpy as np
 
 from wirecut.geometry.frames import to_plan
 
-__all__ = ["CREASE_DEG", "ALONG_SWEEP_DEG", "crease_edges", "break_lines", "segments"]
+__all__ = [
+    "CREASE_DEG",
+    "ALONG_SWEEP_DEG",
+    "sharp_edges",
+    "crease_edges",
+    "break_lines",
+    "segments",
+]
 
 #: An inner edge whose two faces' normals differ by at least this angle is a crease. A smooth
 #: surface meshed at an edge of 2 % of its radius of curvature bends 1.1 deg per edge; a crease
@@ -58,19 +65,41 @@ def crease_edges(target: Any) -> tuple[np.ndarray, np.ndarray]:
     return hit
 
 
-def _crease_edges(target: Any) -> tuple[np.ndarray, np.ndarray]:
-    none = (np.zeros((0, 2)), np.zeros((0, 2)))
+_SHARP: weakref.WeakKeyDictionary = weakref.WeakKeyDictionary()
+
+
+def sharp_edges(target: Any) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """The two face-edge positions (k,), (k,) of each inner edge (``EdgeTable.pairs``) and
+    (k,) bool: whether it is a crease edge (its faces' normals differ by at least
+    :data:`CREASE_DEG`). Computed once per target; the curvature's crease cut and the break
+    lines share it."""
+    try:
+        hit = _SHARP.get(target)
+    except TypeError:
+        return _sharp_edges(target)
+    if hit is None:
+        hit = _sharp_edges(target)
+        _SHARP[target] = hit
+    return hit
+
+
+def _sharp_edges(target: Any) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     table = getattr(target, "edge_table", None)
     if table is None or len(target.faces) == 0:
-        return none
+        empty = np.zeros(0, np.int64)
+        return empty, empty, np.zeros(0, bool)
     first, second = table.pairs()
-    if len(first) == 0:
-        return none
     normals = np.asarray(target.face_normals, float)
     cos = np.einsum("ij,ij->i", normals[first // 3], normals[second // 3])
-    sharp = cos <= math.cos(math.radians(CREASE_DEG))
-    if not sharp.any():
+    return first, second, cos <= math.cos(math.radians(CREASE_DEG))
+
+
+def _crease_edges(target: Any) -> tuple[np.ndarray, np.ndarray]:
+    none = (np.zeros((0, 2)), np.zeros((0, 2)))
+    first, _, sharp = sharp_edges(target)
+    if len(first) == 0 or not sharp.any():
         return none
+    table = target.edge_table
     ends = table.edges[table.counts == 2][sharp]
     up = np.asarray(target.up, float)
     p = to_plan(np.asarray(target.vertices, float)[ends[:, 0]], up)

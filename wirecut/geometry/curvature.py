@@ -329,17 +329,13 @@ def _crease_cut(target: TargetSurface) -> _CreaseCut | None:
     touches, and the fits and patches run on that cut mesh."""
     from scipy.sparse.csgraph import connected_components
 
-    from wirecut.geometry.creases import CREASE_DEG
+    from wirecut.geometry.creases import sharp_edges
 
-    table = target.edge_table
-    first, second = table.pairs()
-    if len(first) == 0:
+    first, second, sharp = sharp_edges(target)
+    if len(first) == 0 or not sharp.any() or sharp.mean() > CREASE_SHARE:
         return None
     fn = np.asarray(target.face_normals, float)
     fa, fb = first // 3, second // 3
-    sharp = np.einsum("ij,ij->i", fn[fa], fn[fb]) <= np.cos(np.radians(CREASE_DEG))
-    if not sharp.any() or sharp.mean() > CREASE_SHARE:
-        return None
     m, n = len(target.faces), len(target.vertices)
     keep = ~sharp
     graph = sparse.coo_matrix((np.ones(int(keep.sum())), (fa[keep], fb[keep])), shape=(m, m))
