@@ -188,4 +188,4 @@ def test_a_height_field_occludes_no_point_and_builds_no_index() -> None:
     pts = target.vertices[target.faces].mean(axis=1)
     assert occlusion.is_height_field(target)
     assert not occlusion.occluded_points(target, pts, np.arange(len(pts))).any()
-    assert target not in occlusion._INDEX
+    assert target not in occlusion._plan_index

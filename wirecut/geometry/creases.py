@@ -22,12 +22,12 @@ dihedral angle of an edge is the angle between its two faces' normals.
 from __future__ import annotations
 
 import math
-import weakref
 from typing import Any
 
 import numpy as np
 
 from wirecut.geometry.frames import to_plan
+from wirecut.geometry.per_target import PerTarget
 
 __all__ = [
     "CREASE_DEG",
@@ -48,42 +48,11 @@ ALONG_SWEEP_DEG = 10.0
 _GATHER_MM = 1.0
 
 
-_CREASES: weakref.WeakKeyDictionary = weakref.WeakKeyDictionary()
-
-
-def crease_edges(target: Any) -> tuple[np.ndarray, np.ndarray]:
-    """The plan midpoints (k, 2) mm and plan vectors (k, 2) mm of the target's crease edges
-    (inner edges whose faces' normals differ by at least :data:`CREASE_DEG`), computed once
-    per target (call it before worker processes are forked so that they inherit it)."""
-    try:
-        hit = _CREASES.get(target)
-    except TypeError:  # an object that cannot be weakly referenced: computed afresh
-        return _crease_edges(target)
-    if hit is None:
-        hit = _crease_edges(target)
-        _CREASES[target] = hit
-    return hit
-
-
-_SHARP: weakref.WeakKeyDictionary = weakref.WeakKeyDictionary()
-
-
-def sharp_edges(target: Any) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+def _sharp_edges(target: Any) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """The two face-edge positions (k,), (k,) of each inner edge (``EdgeTable.pairs``) and
     (k,) bool: whether it is a crease edge (its faces' normals differ by at least
     :data:`CREASE_DEG`). Computed once per target; the curvature's crease cut and the break
     lines share it."""
-    try:
-        hit = _SHARP.get(target)
-    except TypeError:
-        return _sharp_edges(target)
-    if hit is None:
-        hit = _sharp_edges(target)
-        _SHARP[target] = hit
-    return hit
-
-
-def _sharp_edges(target: Any) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     table = getattr(target, "edge_table", None)
     if table is None or len(target.faces) == 0:
         empty = np.zeros(0, np.int64)
@@ -94,7 +63,12 @@ def _sharp_edges(target: Any) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     return first, second, cos <= math.cos(math.radians(CREASE_DEG))
 
 
+sharp_edges = PerTarget(_sharp_edges)
+
+
 def _crease_edges(target: Any) -> tuple[np.ndarray, np.ndarray]:
+    """The plan midpoints (k, 2) mm and plan vectors (k, 2) mm of the target's crease edges,
+    computed once per target (before worker processes are forked, so that they inherit it)."""
     none = (np.zeros((0, 2)), np.zeros((0, 2)))
     first, _, sharp = sharp_edges(target)
     if len(first) == 0 or not sharp.any():
@@ -105,6 +79,9 @@ def _crease_edges(target: Any) -> tuple[np.ndarray, np.ndarray]:
     p = to_plan(np.asarray(target.vertices, float)[ends[:, 0]], up)
     q = to_plan(np.asarray(target.vertices, float)[ends[:, 1]], up)
     return 0.5 * (p + q), q - p
+
+
+crease_edges = PerTarget(_crease_edges)
 
 
 def break_lines(target: Any, wire: np.ndarray, min_length_mm: float) -> np.ndarray:

@@ -27,7 +27,6 @@ rays cast as before.
 
 from __future__ import annotations
 
-import weakref
 from collections.abc import Callable
 from dataclasses import dataclass
 
@@ -35,6 +34,7 @@ import numpy as np
 
 from wirecut.geometry.frames import to_plan
 from wirecut.geometry.mesh import TargetSurface
+from wirecut.geometry.per_target import PerTarget
 from wirecut.geometry.plan_grid import PlanGrid
 
 __all__ = [
@@ -201,24 +201,18 @@ def occluded_vertices(target: TargetSurface) -> np.ndarray:
     return vertex_rays(target, plan_det)
 
 
-_HEIGHT_FIELD: weakref.WeakKeyDictionary = weakref.WeakKeyDictionary()
-_INDEX: weakref.WeakKeyDictionary = weakref.WeakKeyDictionary()
+#: The target's :class:`_PlanIndex` (or None), built once per target: ``_plan_index(target,
+#: plan_det=None)``.
+_plan_index = PerTarget(_PlanIndex.build)
 
 
-def _plan_index(target: TargetSurface, plan_det=None) -> _PlanIndex | None:
-    """The target's :class:`_PlanIndex`, built once per target (its arrays taken as fixed)."""
-    if target not in _INDEX:
-        _INDEX[target] = _PlanIndex.build(target, plan_det)
-    return _INDEX[target]
+def _height_field(target: TargetSurface, plan_det=None) -> bool:
+    return bool(plan_view_injective(target, plan_det))
 
 
-def is_height_field(target: TargetSurface, plan_det=None) -> bool:
-    """:func:`plan_view_injective` of the target, worked out once per target (its arrays are
-    taken as fixed)."""
-    hit = _HEIGHT_FIELD.get(target)
-    if hit is None:
-        hit = _HEIGHT_FIELD[target] = bool(plan_view_injective(target, plan_det))
-    return hit
+#: :func:`plan_view_injective` of the target, worked out once per target:
+#: ``is_height_field(target, plan_det=None)``.
+is_height_field = PerTarget(_height_field)
 
 
 def prepare_occlusion(target: TargetSurface) -> None:

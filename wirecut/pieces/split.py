@@ -22,7 +22,6 @@ marked infeasible, and its area reported as an attention finding.
 from __future__ import annotations
 
 import math
-import weakref
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from typing import Any
@@ -36,6 +35,7 @@ from wirecut.errors import JobError
 from wirecut.findings import Finding, Severity
 from wirecut.geometry.creases import break_lines, segments
 from wirecut.geometry.frames import DirectionFrame, plan_basis, rigid
+from wirecut.geometry.per_target import PerTarget
 from wirecut.geometry.plan_shapes import collector_paused, triangle_polygons
 from wirecut.pieces.piece import Block, Piece
 from wirecut.pieces.region import (
@@ -496,19 +496,8 @@ class _PlanFaces:
         return cls(polygons, tree, fp, float(np.median(edges)) if len(edges) else 1.0)
 
 
-_PLAN_FACES: weakref.WeakKeyDictionary = weakref.WeakKeyDictionary()
-
-
-def _plan_faces(target: Any) -> _PlanFaces:
-    """The cached :class:`_PlanFaces` of a target (afresh for objects that cannot be weakly
-    referenced); the target's arrays are taken as fixed."""
-    try:
-        hit = _PLAN_FACES.get(target)
-    except TypeError:
-        return _PlanFaces.of(target)
-    if hit is None:
-        hit = _PLAN_FACES[target] = _PlanFaces.of(target)
-    return hit
+#: The cached :class:`_PlanFaces` of a target.
+_plan_faces = PerTarget(_PlanFaces.of)
 
 
 def prepare_split(target: Any) -> None:
@@ -730,10 +719,7 @@ def split_pieces(
     surf = _Surface(target, job, frames[0].rotation)
     # the split's own copy from here on: the plan view is not kept beyond it (a million
     # shapely triangles would stay in memory through the programs and the report)
-    try:
-        _PLAN_FACES.pop(target, None)
-    except TypeError:  # an object that cannot be weakly referenced was never cached
-        pass
+    _plan_faces.forget(target)
     if surf.fp.is_empty:
         raise JobError("the target has no plan-view area to cut (every face is vertical)")
     max_w, _ = split_limits(job)

@@ -26,7 +26,6 @@ ruling spacing (chord error 10 % of the tolerance) this stays a few percent of t
 from __future__ import annotations
 
 import math
-import weakref
 from dataclasses import dataclass, replace
 from typing import Any
 
@@ -37,6 +36,7 @@ from wirecut.errors import MeshError
 from wirecut.geometry.frames import apply, to_plan
 from wirecut.geometry.mesh import TargetSurface
 from wirecut.geometry.occlusion import occluded_points, prepare_occlusion
+from wirecut.geometry.per_target import PerTarget
 from wirecut.geometry.plan_grid import PlanGrid
 from wirecut.geometry.plan_shapes import triangle_polygons
 from wirecut.geometry.vectors import cross
@@ -296,20 +296,8 @@ class _Prepared:
         return np.flatnonzero(hit)
 
 
-_PREPARED: weakref.WeakKeyDictionary = weakref.WeakKeyDictionary()
-
-
-def _prepared(target: Any) -> _Prepared:
-    """The cached :class:`_Prepared` of a target (computed afresh for objects that cannot be
-    weakly referenced). The target's arrays are taken as fixed once sampled."""
-    try:
-        hit = _PREPARED.get(target)
-    except TypeError:
-        return _Prepared(target)
-    if hit is None:
-        hit = _Prepared(target)
-        _PREPARED[target] = hit
-    return hit
+#: The cached :class:`_Prepared` of a target.
+_prepared = PerTarget(_Prepared)
 
 
 def default_spacing(target: Any, density: float = 1.0) -> float:
