@@ -248,3 +248,12 @@ def test_a_ridge_along_the_wire_is_followed_by_a_knot() -> None:
     assert np.allclose(found, [300.0])
     assert pinned.report.max_abs_mm < 1e-6
     assert plain.report.max_abs_mm > 0.5  # 5 mm off a 2 x 0.5 slope change: about 1.2 mm
+
+
+def test_nearest_gap_is_the_distance_to_the_nearest_line() -> None:
+    from wirecut.geometry.creases import nearest_gap
+
+    rng = np.random.default_rng(3)
+    lines = np.sort(rng.uniform(0.0, 1000.0, 17))
+    t = rng.uniform(-100.0, 1100.0, 500)
+    assert np.allclose(nearest_gap(t, lines), np.abs(t[:, None] - lines[None, :]).min(axis=1))

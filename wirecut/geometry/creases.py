@@ -35,6 +35,7 @@ __all__ = [
     "sharp_edges",
     "crease_edges",
     "break_lines",
+    "nearest_gap",
     "segments",
 ]
 
@@ -130,6 +131,17 @@ def break_lines(target: Any, wire: np.ndarray, min_length_mm: float) -> np.ndarr
         cum = np.cumsum(w)
         out.append(float(t[lo + int(np.searchsorted(cum, 0.5 * cum[-1]))]))
     return np.asarray(out, float)
+
+
+def nearest_gap(t: np.ndarray, lines: np.ndarray) -> np.ndarray:
+    """(n,) mm: the distance of each coordinate ``t`` (n,) to the nearest of the ascending
+    ``lines`` (k >= 1,) (a binary search per coordinate, not an n x k table)."""
+    t = np.asarray(t, float)
+    lines = np.asarray(lines, float)
+    i = np.searchsorted(lines, t)
+    below = np.abs(t - lines[np.clip(i - 1, 0, len(lines) - 1)])
+    above = np.abs(lines[np.clip(i, 0, len(lines) - 1)] - t)
+    return np.minimum(below, above)
 
 
 def segments(

@@ -348,9 +348,10 @@ def _crease_cut(target: TargetSurface) -> _CreaseCut | None:
     c = len(copies)
     areas = np.asarray(target.face_areas, float)
     weighted = fn * areas[:, None]
-    acc = np.zeros((c, 3))
-    for k in range(3):
-        np.add.at(acc, cut_faces[:, k], weighted)
+    corner = cut_faces.ravel()
+    acc = np.column_stack(
+        [np.bincount(corner, weights=np.repeat(weighted[:, j], 3), minlength=c) for j in range(3)]
+    )
     norm = np.linalg.norm(acc, axis=1, keepdims=True)
     normals = np.divide(acc, norm, out=np.zeros_like(acc), where=norm > 0)
     around = np.bincount(cut_faces.ravel(), weights=np.repeat(areas, 3), minlength=c)

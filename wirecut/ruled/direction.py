@@ -36,7 +36,7 @@ import numpy as np
 
 from wirecut.config import JobProfile, MoldSide, ToleranceSpec
 from wirecut.errors import JobError
-from wirecut.geometry.creases import break_lines, crease_edges, segments
+from wirecut.geometry.creases import break_lines, crease_edges, nearest_gap, segments
 from wirecut.geometry.frames import DirectionFrame, rigid, to_plan
 from wirecut.geometry.vectors import cross
 from wirecut.ruled.fit import fit_cut
@@ -265,7 +265,7 @@ def _score(
     if lines is not None and len(lines):
         spans = segments(z0, z1, lines, job.pieces.min_width_mm)
         eps = 1e-6 * (1.0 + max(abs(z0), abs(z1)))
-        off = np.abs(z[:, None] - np.asarray(lines, float)[None, :]).min(axis=1) > eps
+        off = nearest_gap(z, np.asarray(lines, float)) > eps
         samples, z = samples.subset(off), z[off]
     edges = [spans[0][0]]
     for a, b in spans:
@@ -341,8 +341,7 @@ def search_direction(
             wire = to_plan(frame.wire_part[None, :], up)[0]
             lines = break_lines(target, wire, 0.25 * job.pieces.min_width_mm)
             if len(lines):
-                t = plan @ (wire / np.linalg.norm(wire))
-                skip = np.abs(t[:, None] - lines[None, :]).min(axis=1) <= near
+                skip = nearest_gap(plan @ (wire / np.linalg.norm(wire)), lines) <= near
         hint = predicted_width_mm(analysis, frame.wire_part, job, skip)
         return frame, hint, _score(base.transformed(rel), job, hint, lines)
 
