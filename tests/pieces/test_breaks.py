@@ -257,3 +257,20 @@ def test_nearest_gap_is_the_distance_to_the_nearest_line() -> None:
     lines = np.sort(rng.uniform(0.0, 1000.0, 17))
     t = rng.uniform(-100.0, 1100.0, 500)
     assert np.allclose(nearest_gap(t, lines), np.abs(t[:, None] - lines[None, :]).min(axis=1))
+
+
+def test_a_coarse_dome_has_no_creases_but_a_fold_has_its_folds() -> None:
+    # a sphere cap of R 700 mm meshed at 150 mm bends about 12 deg at every edge: a coarse
+    # tessellation, no crease stands out from its neighbours (CREASE_CONTRAST)
+    from wirecut.geometry.creases import sharp_edges
+
+    r = 700.0
+    xs = np.linspace(-450.0, 450.0, 7)
+    dome = height_target(xs, xs, lambda x, y: np.sqrt(r * r - x * x - y * y))
+    first, _, sharp = sharp_edges(dome)
+    assert len(first) and not sharp.any()
+    # the ridge of a roof at 8 deg: its edges, and only those
+    ridge = roof(8.0)
+    first, _, sharp = sharp_edges(ridge)
+    ends = ridge.edge_table.edges[ridge.edge_table.counts == 2][sharp]
+    assert sharp.any() and np.allclose(ridge.vertices[ends][:, :, 1], 300.0)

@@ -43,6 +43,15 @@ __all__ = [
 #: surface meshed at an edge of 2 % of its radius of curvature bends 1.1 deg per edge; a crease
 #: of 10 deg straddled by 10 mm is off by about 0.9 mm, more than a usual tolerance.
 CREASE_DEG = 10.0
+#: ... and when it bends at least this many times more than the third least bent of the four
+#: edges around it (the other two edges of each of its faces). A coarse tessellation of a
+#: smooth surface bends about as much at every edge but the diagonals of its quads (two of
+#: the four on a grid mesh, hence the third least); a crease stands out from the faces on
+#: either side, which are flat or gently curved. Boundary edges bend nowhere and are left out
+#: of the four; with fewer than three left the edge is no crease. (A crease that zigzags
+#: across the triangles has a crease edge among its four and is not found: its fits are
+#: made across it as on a smooth surface, and it runs along neither the sweep nor the wire.)
+CREASE_CONTRAST = 3.0
 #: A crease counts when its plan direction lies within this angle of the sweep.
 ALONG_SWEEP_DEG = 10.0
 #: Crease edges closer than this across the wire (mm) belong to one break line.
@@ -61,7 +70,23 @@ def _sharp_edges(target: Any) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     first, second = table.pairs()
     normals = np.asarray(target.face_normals, float)
     cos = np.einsum("ij,ij->i", normals[first // 3], normals[second // 3])
-    return first, second, cos <= math.cos(math.radians(CREASE_DEG))
+    bent = cos <= math.cos(math.radians(CREASE_DEG))
+    if not bent.any():
+        return first, second, bent
+    # against the edges around it: the two other edges of each of its faces
+    angle = np.arccos(np.clip(cos, -1.0, 1.0))
+    at = np.full(3 * len(target.faces), np.nan)  # per face-edge position; none on the boundary
+    at[first], at[second] = angle, angle
+    at = at.reshape(-1, 3)
+    around = []
+    for pos in (first[bent], second[bent]):
+        f, k = np.divmod(pos, 3)
+        around += [at[f, (k + 1) % 3], at[f, (k + 2) % 3]]
+    third_least = np.sort(np.column_stack(around), axis=1)[:, 2]  # NaN (unknown) sorts last
+    sharp = bent.copy()
+    with np.errstate(invalid="ignore"):
+        sharp[bent] = angle[bent] >= CREASE_CONTRAST * third_least
+    return first, second, sharp
 
 
 sharp_edges = PerTarget(_sharp_edges)
