@@ -50,6 +50,7 @@ class CheckResult:
         s = self.to_json()["summary"]
         k = a["gaussian_curvature_per_mm2"]
         r = a["wire_reach_mm"]
+        creases = float(getattr(self.analysis, "crease_length_mm", 0.0))
         tol = self.job.tolerance
         return [
             f"wirecut check: {self.mesh_path.name}  (tolerance {tol.surface_mm:g} mm, "
@@ -65,7 +66,14 @@ class CheckResult:
             f"p95 {r['p95']:.0f} mm",
             f"  feasible (reach >= {self.job.pieces.min_width_mm:g} mm, no undercut) "
             f"{s['feasible_area_fraction'] * 100:.1f} %",
-        ]
+        ] + (
+            [
+                f"  creases                {creases / 1000:9.2f} m "
+                "(folds and steps: pieces end at those along the sweep)"
+            ]
+            if creases
+            else []
+        )
 
 
 class _Undefined(float):

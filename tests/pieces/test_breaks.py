@@ -274,3 +274,22 @@ def test_a_coarse_dome_has_no_creases_but_a_fold_has_its_folds() -> None:
     first, _, sharp = sharp_edges(ridge)
     ends = ridge.edge_table.edges[ridge.edge_table.counts == 2][sharp]
     assert sharp.any() and np.allclose(ridge.vertices[ends][:, :, 1], 300.0)
+
+
+def test_the_analysis_measures_the_creases_and_the_map_draws_them(tmp_path) -> None:
+    # the step's wall has a foot and a top, each the polyline of z = 20 sin(pi x / 600) over
+    # the 25 grid points of x: twice its length, by construction
+    from wirecut.export.maps import write_cuttability_map
+    from wirecut.geometry.cuttability import analyse_surface
+
+    job = quick_job()
+    target = step_target(job)
+    analysis = analyse_surface(target, job)
+    xs = np.linspace(0.0, 600.0, 25)
+    line = np.hypot(np.diff(xs), np.diff(20.0 * np.sin(np.pi * xs / 600.0))).sum()
+    assert analysis.crease_length_mm == pytest.approx(2.0 * line, rel=1e-9)
+    assert analysis.to_json()["developable_area_fraction"] == pytest.approx(1.0)
+    out = write_cuttability_map(target, analysis, tmp_path / "map.png", job.tolerance)
+    assert out.stat().st_size > 0
+    smooth = analyse_surface(roof(2.0), job)  # a gentle ridge, no crease
+    assert smooth.crease_length_mm == 0.0

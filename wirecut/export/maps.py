@@ -24,6 +24,7 @@ from pathlib import Path
 import numpy as np
 
 from wirecut.config import ToleranceSpec
+from wirecut.geometry.creases import crease_edges
 from wirecut.geometry.cuttability import DEVELOPABLE, RULED, SYNCLASTIC, SurfaceAnalysis
 from wirecut.geometry.frames import plan_basis, to_plan
 from wirecut.geometry.mesh import TargetSurface
@@ -47,6 +48,10 @@ _CLASS_NAMES = {
 }
 _DPI = 110
 _RASTER = 560  # pixels along the longer side of the plan raster of each panel
+
+
+#: Crease edges drawn on the check map at most (evenly chosen beyond that).
+_MAX_CREASE_LINES = 50_000
 
 
 def scale_bar_length(width_mm: float) -> float:
@@ -232,6 +237,16 @@ def write_cuttability_map(
         np.ma.masked_array(face_reach[fidx], empty), cmap="cividis", vmin=0.0, vmax=top, **style
     )
     handles = [Patch(color=CLASS_COLOURS[c], label=_CLASS_NAMES[c]) for c in CLASS_COLOURS]
+    mid, d = crease_edges(target)
+    if len(mid):  # folds and steps, as thin lines over both panels
+        from matplotlib.collections import LineCollection
+        from matplotlib.lines import Line2D
+
+        keep = np.linspace(0, len(mid) - 1, min(len(mid), _MAX_CREASE_LINES)).astype(np.int64)
+        segs = np.stack([mid[keep] - 0.5 * d[keep], mid[keep] + 0.5 * d[keep]], axis=1)
+        for ax in axes:
+            ax.add_collection(LineCollection(segs, colors="black", linewidths=0.6))
+        handles.append(Line2D([], [], color="black", linewidth=0.6, label="crease"))
     under = (hidden_under & ~empty).astype(float)
     if under.any():
         for ax in axes:

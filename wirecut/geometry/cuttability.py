@@ -123,6 +123,9 @@ class SurfaceAnalysis:
         Total area, mm^2.
     min_width_mm : float
         The job's ``pieces.min_width_mm`` (feasibility threshold of :meth:`summary_json`), mm.
+    crease_length_mm : float
+        Total length of the target's crease edges (:func:`wirecut.geometry.creases.sharp_edges`:
+        folds, steps, ridges), mm; the pieces end at those along the sweep.
     """
 
     curvature: Curvature
@@ -140,6 +143,7 @@ class SurfaceAnalysis:
     extent_mm: float
     target_area_mm2: float
     min_width_mm: float
+    crease_length_mm: float = 0.0
 
     def _fraction(self, mask: np.ndarray) -> float:
         total = float(self.vertex_area.sum())
@@ -378,7 +382,21 @@ def analyse_surface(target: TargetSurface, job: JobProfile) -> SurfaceAnalysis:
         extent_mm=float(extent),
         target_area_mm2=target.area_mm2,
         min_width_mm=float(job.pieces.min_width_mm),
+        crease_length_mm=_crease_length(target),
     )
+
+
+def _crease_length(target: TargetSurface) -> float:
+    """Total length (mm) of the target's crease edges."""
+    from wirecut.geometry.creases import sharp_edges
+
+    first, _, sharp = sharp_edges(target)
+    if len(first) == 0 or not sharp.any():
+        return 0.0
+    table = target.edge_table
+    ends = table.edges[table.counts == 2][sharp]
+    v = np.asarray(target.vertices, float)
+    return float(np.linalg.norm(v[ends[:, 1]] - v[ends[:, 0]], axis=1).sum())
 
 
 def _tree_and_edge(target: TargetSurface):
