@@ -491,3 +491,29 @@ def test_faces_that_share_no_corner_are_flagged():
     flag = [x for x in findings if x.code == "unconnected-faces"]
     assert len(flag) == 1 and flag[0].severity is Severity.ATTENTION
     assert not [x for x in findings if x.code == "mesh-welded"]
+
+
+@pytest.mark.parametrize(
+    ("offset_mm", "file_type", "warned"),
+    [
+        (2.5e6, "stl", True),  # site coordinates: float32 steps of 0.25 mm there
+        (0.0, "stl", False),  # near the origin: steps of 6e-5 mm
+        (2.5e6, "stl_ascii", False),  # text keeps the digits it was written with
+        (2.5e6, "obj", False),
+    ],
+)
+def test_a_binary_stl_far_from_the_origin_is_called_out(tmp_path, offset_mm, file_type, warned):
+    # IEEE 754 binary32 has a 24-bit significand: at 2.5e6 (between 2^21 and 2^22) its step is
+    # 2^(21 - 23) = 0.25
+    mesh = _saddle_mesh()
+    mesh.apply_translation([offset_mm, 0.0, 0.0])
+    suffix = "stl" if file_type.startswith("stl") else file_type
+    path = tmp_path / f"part.{suffix}"
+    data = trimesh.exchange.export.export_mesh(mesh, None, file_type=file_type)
+    path.write_bytes(data.encode() if isinstance(data, str) else data)
+    _, findings = load_target(path, JOB)
+    far = [f for f in findings if f.code == "far-from-origin"]
+    assert bool(far) == warned
+    if warned:
+        assert far[0].severity is Severity.ATTENTION
+        assert "0.25 mm" in far[0].message

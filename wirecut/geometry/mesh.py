@@ -464,7 +464,53 @@ def load_target(
             f"{MAX_TRIANGLES:,}: decimate it first (e.g. trimesh's "
             "simplify_quadric_decimation, or a mesh editor's decimate tool) to about 1,000,000"
         )
-    return _build(vertices, faces, job, units, p.name)
+    target, findings = _build(vertices, faces, job, units, p.name)
+    if p.suffix.lower() == ".stl" and _is_binary_stl(p):
+        findings += _single_precision_check(vertices, units, job, p.name)
+    return target, findings
+
+
+def _is_binary_stl(path: Path) -> bool:
+    """True when the file has the size of a binary STL of the triangle count in its header."""
+    try:
+        size = path.stat().st_size
+        with open(path, "rb") as fh:
+            head = fh.read(84)
+    except OSError:
+        return False
+    if size < 84 or len(head) < 84:
+        return False
+    count = int(np.frombuffer(head, "<u4", 1, 80)[0])
+    return size == 84 + _STL_RECORD.itemsize * count
+
+
+#: A binary STL's coordinates are 32-bit floats; when their rounding where the part lies
+#: exceeds this share of the tolerance, the intake says so.
+_ROUNDING_SHARE = 0.1
+
+
+def _single_precision_check(
+    vertices: np.ndarray, units: Units | None, job: JobProfile, name: str
+) -> list[Finding]:
+    """``far-from-origin`` (attention) when the 32-bit coordinates of a binary STL are rounded
+    by more than a tenth of the tolerance where the part lies: a float32 keeps 24 bits of
+    mantissa, so at 2.5e6 mm (a part exported in site coordinates) its step is 0.25 mm
+    (IEEE 754 binary32)."""
+    unit = Units.MM if units is None else Units(units)
+    far = float(np.abs(vertices).max())
+    step = float(np.spacing(np.float32(far))) * unit.to_mm
+    tol = job.tolerance.surface_mm
+    if step <= _ROUNDING_SHARE * tol:
+        return []
+    return [
+        Finding(
+            "far-from-origin",
+            f"mesh file {name} stores 32-bit coordinates up to {far * unit.to_mm:.3g} mm from "
+            f"the origin, where they are rounded to steps of {step:.3g} mm against a "
+            f"{tol:g} mm tolerance: move the part near the origin before exporting it, or "
+            "export OBJ or PLY with more digits",
+        )
+    ]
 
 
 def target_from_arrays(
