@@ -137,9 +137,16 @@ class TargetSurface:
     def vertex_normals(self) -> np.ndarray:
         """(n, 3) float, unit, part frame: area-weighted vertex normals (same orientation)."""
         w = self.face_normals * self.face_areas[:, None]
-        acc = np.zeros_like(self.vertices)
-        for k in range(3):
-            acc += _scatter_rows(self.faces[:, k], w, len(self.vertices))
+        n = len(self.vertices)
+        # per coordinate, from a contiguous column (a bincount reads strided weights at half
+        # the speed); the same sums in the same order as scattering (n, 3) rows corner by corner
+        cols = [np.ascontiguousarray(w[:, j]) for j in range(3)]
+        acc = np.column_stack(
+            [
+                sum(np.bincount(self.faces[:, k], weights=c, minlength=n) for k in range(3))
+                for c in cols
+            ]
+        )
         norm = np.linalg.norm(acc, axis=1, keepdims=True)
         return np.divide(acc, norm, out=np.zeros_like(acc), where=norm > 0)
 
@@ -182,13 +189,6 @@ def _face_edges(vertices: np.ndarray, faces: np.ndarray) -> tuple[np.ndarray, np
     (gathered per corner: one (m, 3, 3) gather and strided slices of it cost twice as much)."""
     v0 = vertices[faces[:, 0]]
     return vertices[faces[:, 1]] - v0, vertices[faces[:, 2]] - v0
-
-
-def _scatter_rows(index: np.ndarray, values: np.ndarray, n: int) -> np.ndarray:
-    """Sum rows of ``values`` (k, d) into ``n`` bins given by ``index`` (k,)."""
-    return np.column_stack(
-        [np.bincount(index, weights=values[:, j], minlength=n) for j in range(values.shape[1])]
-    )
 
 
 @dataclass(frozen=True, eq=False)
