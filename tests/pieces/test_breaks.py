@@ -293,3 +293,24 @@ def test_the_analysis_measures_the_creases_and_the_map_draws_them(tmp_path) -> N
     assert out.stat().st_size > 0
     smooth = analyse_surface(roof(2.0), job)  # a gentle ridge, no crease
     assert smooth.crease_length_mm == 0.0
+
+
+def test_the_direction_score_puts_a_knot_on_a_ridge_along_the_wire() -> None:
+    # a steep gable scored with the wire along its ridge: the quick fits follow the ridge
+    # exactly with a knot on it, as the split's fits do
+    from wirecut.ruled.direction import _coarse_samples, _score
+
+    job = quick_job()
+    xs = np.linspace(0.0, 600.0, 61)
+    ys = np.linspace(0.0, 400.0, 21)
+    target = height_target(xs, ys, lambda x, y: 300.0 - 0.8 * np.abs(x - 300.0), job)
+    along = frame(90.0)
+    samples = _coarse_samples(target, along)
+    sweep = np.array([along.rotation[0][0], along.rotation[0][1]])  # machine x in plan
+    ridges = break_lines(target, sweep, 25.0)
+    assert len(ridges) == 1
+    pinned = _score(samples, job, ridges=ridges)
+    plain = _score(samples, job)
+    assert pinned[1] < 1e-3
+    assert pinned[1] <= plain[1] + 1e-12
+    assert pinned[0] == pytest.approx(1.0)

@@ -250,13 +250,15 @@ def _score(
     job: JobProfile,
     width_hint: float = math.inf,
     lines: np.ndarray | None = None,
+    ridges: np.ndarray | None = None,
 ) -> tuple[float, float, int, int]:
     """(feasible area share, max |deviation| mm, strips, estimated pieces) of strips along the
     wire, at the trial width: the usable span, narrowed to ``width_hint`` (the width the
     curvature allows) but never below ``pieces.min_width_mm``. With break ``lines`` (wire
     coordinates, mm: :func:`wirecut.geometry.creases.break_lines`) the strips are laid out
     between them, as the split will, and the samples on a line (a step's wall, the crease
-    itself) are left out."""
+    itself) are left out. ``ridges`` (machine x, mm) are the creases along the wire, where
+    the fits put a knot as the split's do (``knots_at`` of :func:`fit_cut`)."""
     z = samples.points[:, 2]
     z0, z1 = float(z.min()), float(z.max())
     span = max(z1 - z0, 1e-6)
@@ -281,7 +283,10 @@ def _score(
         if (~part.undercut).sum() < 12:
             continue
         try:
-            fit = fit_cut(part, a, b, np.eye(4), fit_tolerance(job), correspondence=False)
+            fit = fit_cut(
+                part, a, b, np.eye(4), fit_tolerance(job), correspondence=False,
+                knots_at=ridges,
+            )  # fmt: skip
         except JobError:
             continue
         r = fit.report
@@ -336,14 +341,17 @@ def search_direction(
     def scored(angle: float):
         frame = DirectionFrame.from_angle(angle, up, side)
         rel = rigid(frame.rotation @ first.rotation.T, np.zeros(3))
-        lines = skip = None
+        lines = skip = ridges = None
         if creased:
+            least = 0.25 * job.pieces.min_width_mm
             wire = to_plan(frame.wire_part[None, :], up)[0]
-            lines = break_lines(target, wire, 0.25 * job.pieces.min_width_mm)
+            lines = break_lines(target, wire, least)
             if len(lines):
                 skip = nearest_gap(plan @ (wire / np.linalg.norm(wire)), lines) <= near
+            # the creases along the wire, at machine x (the samples' frame has no shift)
+            ridges = break_lines(target, to_plan(frame.rotation[0][None, :], up)[0], least)
         hint = predicted_width_mm(analysis, frame.wire_part, job, skip)
-        return frame, hint, _score(base.transformed(rel), job, hint, lines)
+        return frame, hint, _score(base.transformed(rel), job, hint, lines, ridges)
 
     rows = []
     results = pmap(scored, [angle for angle, _ in cands], meanwhile=meanwhile)
