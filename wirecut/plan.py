@@ -342,14 +342,20 @@ def _refit_parallel(target, piece, job: JobProfile, why: str):
     from dataclasses import replace
 
     from wirecut.errors import JobError
+    from wirecut.geometry.creases import break_lines
+    from wirecut.pieces.region import plan_axes
     from wirecut.ruled.fit import fit_cut
 
     b = piece.block
     samples = check_samples(target, piece.part_to_machine, piece.region_plan)
+    # the creases along the wire keep their knots, as in the split's fits
+    sweep, _ = plan_axes(piece.frame, target.up)
+    ridges = break_lines(target, sweep, 0.25 * job.pieces.min_width_mm)
     try:
         fit = fit_cut(
             samples, b.z_mm[0], b.z_mm[1], piece.part_to_machine, job.tolerance,
             x_range=b.x_mm, correspondence=False,
+            knots_at=ridges + float(piece.part_to_machine[0, 3]) if len(ridges) else None,
         )  # fmt: skip
     except JobError:
         return None
