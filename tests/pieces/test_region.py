@@ -9,7 +9,7 @@ from shapely.geometry import Polygon
 from shapes_pieces import grid_mesh
 
 from wirecut.geometry.frames import plan_basis
-from wirecut.pieces.region import footprint, kept_volume_mm3
+from wirecut.pieces.region import faces_near_boundary, footprint, kept_volume_mm3, plan_grid_of
 
 UP = np.array([0.0, 0.0, 1.0])
 
@@ -31,29 +31,29 @@ def holed_mesh():
     return v, f
 
 
-def plan_polygons(v, f):
-    e1, e2, _ = plan_basis(UP)
-    uv = np.column_stack([v @ e1, v @ e2])
-    return shapely.polygons(uv[f])
-
-
-def test_footprint_with_a_shared_tree_is_the_same():
+def test_footprint_with_a_shared_grid_is_the_same():
     v, f = holed_mesh()
     alone = footprint(v, f, UP)
-    shared = footprint(v, f, UP, tree=shapely.STRtree(plan_polygons(v, f)))
+    e1, e2, _ = plan_basis(UP)
+    tri = np.column_stack([v @ e1, v @ e2])[f]
+    shared = footprint(v, f, UP, grid=plan_grid_of(tri, np.arange(len(f))))
     assert shapely.equals(alone, shared)
     # 400 x 300 minus the 100 x 100 hole (by construction)
     assert alone.area == pytest.approx(400.0 * 300.0 - 100.0 * 100.0, rel=1e-9)
 
 
-def test_kept_volume_with_shared_polygons_is_the_same():
+def test_kept_volume_with_the_faces_near_the_boundary_given_is_the_same():
     v, f = holed_mesh()
     region = Polygon([(30.0, 20.0), (370.0, 35.0), (350.0, 280.0), (45.0, 260.0)])
     rot = np.array([[1.0, 0.0, 0.0], [0.0, 0.0, 1.0], [0.0, -1.0, 0.0]])  # part z -> machine y
     base = -10.0
     alone = kept_volume_mm3(v, f, UP, rot, base, region)
-    shared = kept_volume_mm3(v, f, UP, rot, base, region, polygons=plan_polygons(v, f))
-    assert shared == alone
+    e1, e2, _ = plan_basis(UP)
+    tri = np.column_stack([v @ e1, v @ e2])[f]
+    grid = plan_grid_of(tri, np.arange(len(f)))
+    near = faces_near_boundary(grid, region, len(f))
+    assert 0 < near.sum() < len(f)  # the rest are told by their centroids
+    assert kept_volume_mm3(v, f, UP, rot, base, region, near=near) == alone
     # the foam is the integral of (z - base) over the region outside the hole: a midpoint sum
     # on a 1 mm grid (independent of the triangles) agrees within 0.1 %
     x, y = np.meshgrid(np.arange(0.5, 400.0), np.arange(0.5, 300.0), indexing="ij")

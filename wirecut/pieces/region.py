@@ -7,7 +7,8 @@ boundary instead: an edge of the projected union is either a mesh boundary edge 
 edge whose two faces project with opposite orientation (a silhouette seen from above). Those
 edges are noded into a planar arrangement (``shapely.polygonize``); each face of the
 arrangement lies wholly inside or wholly outside the union, which one is decided by testing a
-point inside it against the triangles (STR-tree query). Holes and several islands come out
+point inside it against the triangles (the faces whose boxes share its cell of a
+:class:`~wirecut.geometry.plan_grid.PlanGrid`). Holes and several islands come out
 right because they are faces of the arrangement like any other.
 
 Strips and splits are intersections with bands between two lines in the plan: the planes
@@ -23,6 +24,7 @@ from shapely.geometry import MultiPolygon, Polygon
 from shapely.geometry.base import BaseGeometry
 
 from wirecut.geometry.frames import DirectionFrame, plan_basis
+from wirecut.geometry.plan_grid import PlanGrid
 from wirecut.geometry.plan_shapes import triangle_polygons
 from wirecut.geometry.vectors import cross
 
@@ -35,6 +37,8 @@ __all__ = [
     "polygons_of",
     "extent_along",
     "kept_volume_mm3",
+    "faces_near_boundary",
+    "plan_grid_of",
 ]
 
 
@@ -83,7 +87,7 @@ def footprint(
     vertices: np.ndarray,
     faces: np.ndarray,
     up: np.ndarray,
-    tree: shapely.STRtree | None = None,
+    grid: PlanGrid | None = None,
     table=None,
 ) -> BaseGeometry:
     """The target's plan-view footprint: union of its projected triangles.
@@ -94,9 +98,10 @@ def footprint(
     faces : (m, 3) int
     up : (3,) float
         The part frame's up (the plan is perpendicular to it).
-    tree : shapely.STRtree, optional
-        A tree of every face's plan triangle, in face order, when the caller has one (building
-        a million shapely triangles is most of this function's time).
+    grid : PlanGrid, optional
+        The faces' plan boxes on a grid, named by face index, when the caller has one: it must
+        hold at least every face whose doubled signed plan area exceeds 1e-9 mm^2 in
+        magnitude (the faces below that are tested directly). Built here otherwise.
     table : EdgeTable, optional
         The faces' edge table, when known (see :func:`candidate_edges`).
 
@@ -124,14 +129,22 @@ def footprint(
         return Polygon()
     probes = shapely.point_on_surface(cells)
     good = signed != 0.0
-    if tree is None:
-        tree = shapely.STRtree(triangle_polygons(tri[good]))
-        hit = tree.query(probes, predicate="intersects")
-    else:  # every face is in the caller's tree: keep the hits on faces with a plan area
-        hit = tree.query(probes, predicate="intersects")
-        hit = hit[:, good[hit[1]]]
+    if grid is None:
+        grid = plan_grid_of(tri, np.flatnonzero(good))
+    # a cell is inside when a face with a plan area holds its probe: the grid gives each
+    # probe the faces whose boxes share its grid cell, tested exactly
     inside = np.zeros(len(cells), bool)
-    inside[np.unique(hit[0])] = True
+    xy = shapely.get_coordinates(probes)
+    for qi, fi in grid.candidates(xy):
+        keep = good[fi]
+        qi, fi = qi[keep], fi[keep]
+        hit = shapely.intersects(probes[qi], triangle_polygons(tri[fi]))
+        inside[qi[hit]] = True
+    # faces the caller's grid may leave out (edge-on to within rounding): tested directly
+    rest = np.flatnonzero(good & (np.abs(2.0 * signed) <= 2e-9))
+    if len(rest):
+        hit = shapely.STRtree(triangle_polygons(tri[rest])).query(probes, predicate="intersects")
+        inside[hit[0]] = True
     out = shapely.union_all(cells[inside])
     return shapely.make_valid(out) if not out.is_valid else out
 
@@ -208,7 +221,7 @@ def kept_volume_mm3(
     rotation: np.ndarray,
     base_y: float,
     region: BaseGeometry,
-    polygons: np.ndarray | None = None,
+    near: np.ndarray | None = None,
 ) -> float:
     """Foam volume (mm^3) under the target surface down to the base plane, inside ``region``.
 
@@ -228,8 +241,10 @@ def kept_volume_mm3(
     rotation : (3, 3) float, part -> machine rotation
     base_y : float, mm, rotated machine frame
     region : shapely geometry, mm, part plan view
-    polygons : (m,) shapely Polygons, optional
-        The faces' plan triangles when the caller has them already.
+    near : (m,) bool, optional
+        The faces that may meet the region's boundary (see :func:`faces_near_boundary`);
+        the others lie wholly inside or wholly outside the region and are told apart by
+        their centroids, without a polygon each. Default: every face is tested exactly.
     """
     v = np.asarray(vertices, float)
     f = np.asarray(faces, int)
@@ -249,15 +264,24 @@ def kept_volume_mm3(
         return 0.0
     idx = np.flatnonzero(ok)
     area_all = np.abs(signed)
-    polys = triangle_polygons(tri[idx]) if polygons is None else np.asarray(polygons)[idx]
     shapely.prepare(region)
-    inside = shapely.contains(region, polys)
-    touch = shapely.intersects(region, polys) & ~inside
+    inside = np.zeros(len(idx), bool)
+    touch = np.zeros(len(idx), bool)
+    exact = np.ones(len(idx), bool) if near is None else np.asarray(near, bool)[idx]
+    exact |= np.abs(2.0 * signed[idx]) <= 2e-9  # faces a grid may leave out: edge-on in plan
+    if not exact.all():  # wholly inside or outside: the centroid tells which
+        far = ~exact
+        c = tri[idx[far]].mean(axis=1)
+        inside[far] = shapely.contains_xy(region, c[:, 0], c[:, 1])
+    polys = triangle_polygons(tri[idx[exact]])
+    within = shapely.contains(region, polys)
+    inside[exact] = within
+    touch[exact] = shapely.intersects(region, polys) & ~within
     hmean = h[f].mean(axis=1)
     full = idx[inside]
     vol = float(np.sum(area_all[full] * toward[full] * (hmean[full] - base_y)))
     if np.any(touch):
-        clipped = shapely.intersection(polys[touch], region)
+        clipped = shapely.intersection(triangle_polygons(tri[idx[touch]]), region)
         area = shapely.area(clipped)
         nz = area > 0
         part_idx = idx[touch][nz]
@@ -272,3 +296,41 @@ def kept_volume_mm3(
         hc = hh[:, 0] + lam[:, 0] * (hh[:, 1] - hh[:, 0]) + lam[:, 1] * (hh[:, 2] - hh[:, 0])
         vol += float(np.sum(area[nz] * toward[part_idx] * (hc - base_y)))
     return vol
+
+
+def plan_grid_of(tri: np.ndarray, items: np.ndarray) -> PlanGrid:
+    """A :class:`PlanGrid` of the plan triangles ``tri[items]`` ((m, 3, 2) mm), named by
+    ``items``."""
+    t = np.asarray(tri, float)[np.asarray(items, np.int64)]
+    lo = t.min(axis=1) if len(t) else np.zeros((0, 2))
+    hi = t.max(axis=1) if len(t) else np.zeros((0, 2))
+    if len(t) == 0:
+        return PlanGrid.of_boxes(lo, hi, items, np.zeros(2), np.ones(2))
+    g0 = lo.min(axis=0)
+    return PlanGrid.of_boxes(lo, hi, items, g0, hi.max(axis=0) - g0)
+
+
+def faces_near_boundary(grid: PlanGrid, region: BaseGeometry, m: int) -> np.ndarray:
+    """(m,) bool: the faces of ``grid`` (face indices below ``m``) whose plan boxes may meet
+    the boundary of ``region``; every other face of the grid lies wholly inside or wholly
+    outside the region.
+
+    The boundary is sampled at most half a grid cell apart, and every face entered in a cell
+    within one cell of a sample is marked: a point where a box meets the boundary lies within
+    a quarter cell of a sample, so in a cell next to the sample's (or the same)."""
+    out = np.zeros(m, bool)
+    edge = shapely.boundary(region)
+    if edge is None or shapely.is_empty(edge):
+        return out
+    pts = shapely.get_coordinates(shapely.segmentize(edge, 0.5 * grid.cell))
+    ij = np.floor((pts - grid.lo) / grid.cell).astype(np.int64)
+    step = np.array([(a, b) for a in (-1, 0, 1) for b in (-1, 0, 1)], np.int64)
+    ij = (ij[:, None, :] + step[None]).reshape(-1, 2)
+    ok = (ij >= 0).all(axis=1) & (ij[:, 0] < grid.nx) & (ij[:, 1] < grid.ny)
+    keys = np.unique(ij[ok, 0] * grid.ny + ij[ok, 1])
+    start = np.searchsorted(grid.key, keys, side="left")
+    stop = np.searchsorted(grid.key, keys, side="right")
+    count = stop - start
+    pos = np.repeat(start - (np.cumsum(count) - count), count) + np.arange(int(count.sum()))
+    out[grid.item[pos]] = True
+    return out

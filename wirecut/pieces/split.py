@@ -34,12 +34,13 @@ from wirecut.config import JobProfile
 from wirecut.errors import JobError
 from wirecut.findings import Finding, Severity
 from wirecut.geometry.creases import break_lines, segments
-from wirecut.geometry.frames import DirectionFrame, plan_basis, rigid
+from wirecut.geometry.frames import DirectionFrame, rigid
 from wirecut.geometry.per_target import PerTarget
-from wirecut.geometry.plan_shapes import collector_paused, triangle_polygons
+from wirecut.geometry.plan_shapes import triangle_polygons
 from wirecut.pieces.piece import Block, Piece
 from wirecut.pieces.region import (
     extent_along,
+    faces_near_boundary,
     footprint,
     kept_volume_mm3,
     plan_axes,
@@ -473,27 +474,25 @@ def _contends(choice: Any, runner: DirectionFrame) -> bool:
 
 @dataclass(frozen=True, eq=False)
 class _PlanFaces:
-    """What the split needs of a target's plan view, whatever the wire direction."""
+    """What the split needs of a target's plan view, whatever the wire direction: the
+    triangles as sampling prepared them (plan corners, boxes, grid) and the footprint."""
 
-    polygons: np.ndarray  # (m,) shapely Polygons: every face's plan triangle, mm
-    tree: Any  # shapely.STRtree of ``polygons``
+    faces: Any  # wirecut.ruled.sampling.prepared_faces(target)
     footprint: Any  # shapely geometry: the union of the plan triangles
-    edge_mm: float  # median plan edge length, mm
 
     @classmethod
     def of(cls, target: Any) -> _PlanFaces:
+        from wirecut.ruled.sampling import prepared_faces
+
+        prep = prepared_faces(target)
+        grid = prep.plan_grid()
         v = np.asarray(target.vertices, float)
         f = np.asarray(target.faces, np.int64)
         up = np.asarray(target.up, float)
-        e1, e2, _ = plan_basis(up)
-        tri = np.column_stack([v @ e1, v @ e2])[f]
-        # every face's plan triangle, once: the tree, the footprint and the kept foam share them
-        polygons = triangle_polygons(tri)
-        with collector_paused():
-            tree = shapely.STRtree(polygons)
-            fp = footprint(v, f, up, tree=tree, table=getattr(target, "edge_table", None))
-        edges = np.linalg.norm(tri - np.roll(tri, 1, axis=1), axis=2)
-        return cls(polygons, tree, fp, float(np.median(edges)) if len(edges) else 1.0)
+        if grid is None:  # every face edge-on: no plan area
+            return cls(prep, Polygon())
+        fp = footprint(v, f, up, grid=grid, table=getattr(target, "edge_table", None))
+        return cls(prep, fp)
 
 
 #: The cached :class:`_PlanFaces` of a target.
@@ -501,14 +500,18 @@ _plan_faces = PerTarget(_PlanFaces.of)
 
 
 def prepare_split(target: Any) -> None:
-    """Build the plan view the split needs (every face's plan triangle, their tree, the
-    footprint) ahead of :func:`split_pieces`: the planner does it while the direction search's
-    workers run, when this process would otherwise wait."""
+    """Build the plan view the split needs (the footprint, from the faces' plan grid) ahead
+    of :func:`split_pieces`: the planner does it while the direction search's workers run,
+    when this process would otherwise wait."""
     _plan_faces(target)
 
 
 class _Surface:
-    """The target prepared once for all strips: plan triangles, heights, a search tree."""
+    """The target prepared once for all strips: plan triangles, heights, the footprint.
+
+    No face gets a shapely polygon of its own (a million of them took seconds to make and
+    hundreds of megabytes to hold): a region's faces come from the plan boxes, and only the
+    few that the exact tests need are made into polygons."""
 
     def __init__(self, target: Any, job: JobProfile, rotation: np.ndarray) -> None:
         self.target = target
@@ -521,8 +524,7 @@ class _Surface:
         self.face_top = self.h[self.faces].max(axis=1) if len(self.faces) else np.zeros(0)
         self.base_y = float(self.h.min()) - job.mold.base_mm
         plan = _plan_faces(target)
-        self.polygons, self.tree, self.fp = plan.polygons, plan.tree, plan.footprint
-        self.edge_mm = plan.edge_mm
+        self.prep, self.fp = plan.faces, plan.footprint
 
     def top(self, region: Any) -> float:
         """Highest machine y (before placement) of the faces over ``region``, mm.
@@ -530,28 +532,32 @@ class _Surface:
         Only the highest face that meets the region matters: the faces whose boxes meet the
         region's are tested exactly from the highest down, a batch at a time, and the first
         batch holding a meeting face gives the answer (the same as testing them all)."""
-        box = self.tree.query(region)  # boxes only: no exact test yet
+        box = self.prep.faces_near(region)  # boxes only: no exact test yet
         if len(box) == 0:
             return self.base_y
         order = box[np.argsort(-self.face_top[box], kind="stable")]
         shapely.prepare(region)
         for start in range(0, len(order), _TOP_BATCH):
             batch = order[start : start + _TOP_BATCH]
-            meets = shapely.intersects(region, self.polygons[batch])
+            meets = shapely.intersects(region, triangle_polygons(self.prep.tri_plan[batch]))
             if meets.any():
                 return float(self.face_top[batch[meets]].max())
         return self.base_y
 
     def kept(self, region: Any) -> float:
         """Foam under the surface down to the base plane inside ``region``, mm^3."""
-        # the faces whose boxes meet the region's: the volume tests each exactly itself, and
-        # one that does not meet the region adds nothing
-        idx = np.sort(self.tree.query(region))
+        # the faces whose boxes meet the region's: the volume tests each itself, exactly
+        # where it may meet the region's boundary, by its centroid elsewhere
+        idx = self.prep.faces_near(region)
         if len(idx) == 0:
             return 0.0
+        grid = self.prep.plan_grid()
+        near = None
+        if grid is not None:
+            near = faces_near_boundary(grid, region, len(self.faces))[idx]
         return kept_volume_mm3(
             self.vertices, self.faces[idx], self.up, self.rotation, self.base_y, region,
-            polygons=self.polygons[idx],
+            near=near,
         )  # fmt: skip
 
 
@@ -717,9 +723,6 @@ def split_pieces(
     if not frames:
         raise ValueError("split_pieces needs at least one wire direction")
     surf = _Surface(target, job, frames[0].rotation)
-    # the split's own copy from here on: the plan view is not kept beyond it (a million
-    # shapely triangles would stay in memory through the programs and the report)
-    _plan_faces.forget(target)
     if surf.fp.is_empty:
         raise JobError("the target has no plan-view area to cut (every face is vertical)")
     max_w, _ = split_limits(job)

@@ -45,6 +45,7 @@ __all__ = [
     "TargetSamples",
     "sample_target",
     "prepare_sampling",
+    "prepared_faces",
     "judging_samples",
     "JUDGING_DENSITY",
     "DETAIL_SAG_MM",
@@ -305,6 +306,12 @@ def default_spacing(target: Any, density: float = 1.0) -> float:
     if not density >= 1.0 or not math.isfinite(density):
         raise MeshError(f"sample density must be a number >= 1, got {density!r}")
     return float(np.clip(_prepared(target).median_edge, 1.0, 20.0)) / math.sqrt(density)
+
+
+def prepared_faces(target: Any) -> _Prepared:
+    """The target's triangles as sampling prepares them once (part and plan corners, plan
+    boxes and their grid, ``faces_near``), for other plan-view work on the same target."""
+    return _prepared(target)
 
 
 def prepare_sampling(target: Any) -> None:
