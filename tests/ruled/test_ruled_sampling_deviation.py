@@ -120,6 +120,24 @@ def test_height_at_matches_a_per_row_interpolation():
     assert np.isnan(got[~ok]).all()
 
 
+def test_parallel_rulings_are_located_as_the_bisection_locates_them():
+    rng = np.random.default_rng(17)
+    knots = np.unique(np.round(rng.uniform(0, 500, 60), 1))
+    y = rng.uniform(100, 200, (len(knots), 2))
+    cut = RuledCut(np.column_stack([knots, y[:, 0]]), np.column_stack([knots, y[:, 1]]),
+                   0.0, 300.0, np.eye(4))  # fmt: skip
+    # points on the knots themselves, between them, beyond both ends, and z outside the faces
+    x = np.concatenate([knots, rng.uniform(-20, 520, 2000), [knots[0], knots[-1]]])
+    z = np.concatenate([rng.uniform(-50, 350, len(x) - 2), [0.0, 300.0]])
+    fast = cut.strip_of(x, z)
+    assert cut._parallel_sorted()
+    slow_cut = RuledCut(cut.left, cut.right, cut.z_left, cut.z_right, cut.part_to_machine)
+    object.__setattr__(slow_cut, "_parallel", False)  # the general bisection
+    slow = slow_cut.strip_of(x, z)
+    for a, b in zip(fast, slow, strict=True):
+        assert np.array_equal(a, b)
+
+
 def test_weighted_quantile_of_equal_weights_is_the_order_statistic():
     v = np.arange(1.0, 101.0)
     # the 95th of 1..100 with equal weights is 95 (lower order statistic, definition)

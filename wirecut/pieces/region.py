@@ -249,14 +249,14 @@ def kept_volume_mm3(
     v = np.asarray(vertices, float)
     f = np.asarray(faces, int)
     e1, e2, _ = plan_basis(up)
-    uv = np.column_stack([v @ e1, v @ e2])
-    h = v @ np.asarray(rotation, float)[1]
-    tri = uv[f]
+    # the corners of these faces only (a region's faces are a small share of a large mesh)
+    p = v[f]
+    tri = np.stack([p @ e1, p @ e2], axis=-1)
+    hf = p @ np.asarray(rotation, float)[1]
     d1 = tri[:, 1] - tri[:, 0]
     d2 = tri[:, 2] - tri[:, 0]
     signed = 0.5 * (d1[:, 0] * d2[:, 1] - d1[:, 1] * d2[:, 0])
     # orientation toward the waste side: the triangle's 3D normal . machine y
-    p = v[f]
     n3 = cross(p[:, 1] - p[:, 0], p[:, 2] - p[:, 0])
     toward = np.sign(n3 @ np.asarray(rotation, float)[1])
     ok = (signed != 0.0) & (toward != 0.0)
@@ -277,7 +277,7 @@ def kept_volume_mm3(
     within = shapely.contains(region, polys)
     inside[exact] = within
     touch[exact] = shapely.intersects(region, polys) & ~within
-    hmean = h[f].mean(axis=1)
+    hmean = hf.mean(axis=1)
     full = idx[inside]
     vol = float(np.sum(area_all[full] * toward[full] * (hmean[full] - base_y)))
     if np.any(touch):
@@ -291,7 +291,7 @@ def kept_volume_mm3(
         a0 = t[:, 0]
         m = np.stack([t[:, 1] - a0, t[:, 2] - a0], axis=2)
         lam = np.linalg.solve(m, (c - a0)[:, :, None])[:, :, 0]
-        hh = h[f[part_idx]]
+        hh = hf[part_idx]
         # the height is linear over the triangle: evaluate it at the clipped piece's centroid
         hc = hh[:, 0] + lam[:, 0] * (hh[:, 1] - hh[:, 0]) + lam[:, 1] * (hh[:, 2] - hh[:, 0])
         vol += float(np.sum(area[nz] * toward[part_idx] * (hc - base_y)))

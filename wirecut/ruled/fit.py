@@ -162,9 +162,12 @@ def ruling_spacing_for(tolerance_mm: float, sweep_curvature_per_mm: float) -> fl
 # --------------------------------------------------------------------------- the linear model
 
 
-def _design(cut: RuledCut, x: np.ndarray, z: np.ndarray) -> tuple[sp.csr_matrix, np.ndarray]:
-    """Sparse (n, 2K) matrix A with cut height = A @ [yL, yR], and the inside mask."""
-    j, w, t, inside = cut.strip_of(x, z)
+def _design(
+    cut: RuledCut, x: np.ndarray, z: np.ndarray, located=None
+) -> tuple[sp.csr_matrix, np.ndarray]:
+    """Sparse (n, 2K) matrix A with cut height = A @ [yL, yR], and the inside mask.
+    ``located``: ``cut.strip_of(x, z)`` when the caller has it."""
+    j, w, t, inside = cut.strip_of(x, z) if located is None else located
     k = cut.n_rulings
     n = len(x)
     rows = np.repeat(np.arange(n), 4)
@@ -301,9 +304,10 @@ def fit_cut(
         flat = ruled_cut(
             knots - s / 2, knots + s / 2, np.zeros(k), np.zeros(k), z_left, z_right, part_to_machine
         )
-        a, _ = _design(flat, x, z)
+        located = flat.strip_of(x, z)
+        a, _ = _design(flat, x, z, located)
         y1 = _least_squares_heights(a, yt, c, k) if y_start is None else y_start
-        j, _, t, _ = flat.strip_of(x, z)
+        j, _, t, _ = located
         cell = cells(j, t)
         y2, eps, rounds = equal_error(a, yt, ny_t, cell, y1, policy, tol)
         cut = ruled_cut(

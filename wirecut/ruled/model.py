@@ -113,14 +113,24 @@ class RuledCut:
         t = self.t_of(z)
         lx, rx = self.left[:, 0], self.right[:, 0]
         k = self.n_rulings
-        lo = np.zeros(x.shape, dtype=np.int64)
-        hi = np.full(x.shape, k - 1, dtype=np.int64)
-        for _ in range(int(np.ceil(np.log2(max(k - 1, 1))))):
-            mid = (lo + hi) // 2
-            right_of = (1.0 - t) * lx[mid] + t * rx[mid] <= x
-            lo = np.where(right_of, mid, lo)
-            hi = np.where(right_of, hi, mid)
-        j = np.minimum(lo, k - 2)
+        if self._parallel_sorted():
+            # parallel rulings: the knots are the same at every t, up to the rounding of
+            # (1 - t) lx + t lx, so a sorted search finds the strip to within one, and one
+            # step to each side against the knots as computed below settles it
+            j = np.clip(np.searchsorted(lx, x, side="right") - 1, 0, k - 2)
+            back = (j > 0) & ((1.0 - t) * lx[j] + t * rx[j] > x)
+            j = j - back
+            on = (j < k - 2) & ((1.0 - t) * lx[j + 1] + t * rx[j + 1] <= x)
+            j = j + on
+        else:
+            lo = np.zeros(x.shape, dtype=np.int64)
+            hi = np.full(x.shape, k - 1, dtype=np.int64)
+            for _ in range(int(np.ceil(np.log2(max(k - 1, 1))))):
+                mid = (lo + hi) // 2
+                right_of = (1.0 - t) * lx[mid] + t * rx[mid] <= x
+                lo = np.where(right_of, mid, lo)
+                hi = np.where(right_of, hi, mid)
+            j = np.minimum(lo, k - 2)
         x0 = (1.0 - t) * lx[j] + t * rx[j]
         x1 = (1.0 - t) * lx[j + 1] + t * rx[j + 1]
         first = (1.0 - t) * lx[0] + t * rx[0]
@@ -129,6 +139,16 @@ class RuledCut:
         inside = (x >= first - fuzz) & (x <= last + fuzz)
         w = (x - x0) / np.where(x1 > x0, x1 - x0, 1.0)
         return j, w, t, inside
+
+    def _parallel_sorted(self) -> bool:
+        """True when every ruling is parallel to the wire's z (the same x on both faces) and
+        the knots' x never decrease (computed once per cut)."""
+        known = self.__dict__.get("_parallel")
+        if known is None:
+            lx, rx = self.left[:, 0], self.right[:, 0]
+            known = bool(np.array_equal(lx, rx) and np.all(np.diff(lx) >= 0))
+            object.__setattr__(self, "_parallel", known)
+        return known
 
     def height_at(self, x: np.ndarray, z: np.ndarray) -> np.ndarray:
         """Machine y (mm) of the cut surface above machine (x, z), for a monotone cut.
