@@ -33,6 +33,7 @@ __all__ = [
     "CREASE_DEG",
     "ALONG_SWEEP_DEG",
     "sharp_edges",
+    "crease_ends",
     "crease_edges",
     "break_lines",
     "nearest_gap",
@@ -95,15 +96,21 @@ def _sharp_edges(target: Any) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
 sharp_edges = PerTarget(_sharp_edges)
 
 
+def crease_ends(target: Any) -> np.ndarray:
+    """The vertex indices (k, 2) of the target's crease edges (none: (0, 2))."""
+    first, _, sharp = sharp_edges(target)
+    if len(first) == 0 or not sharp.any():
+        return np.zeros((0, 2), np.int64)
+    table = target.edge_table
+    return table.edges[table.counts == 2][sharp]
+
+
 def _crease_edges(target: Any) -> tuple[np.ndarray, np.ndarray]:
     """The plan midpoints (k, 2) mm and plan vectors (k, 2) mm of the target's crease edges,
     computed once per target (before worker processes are forked, so that they inherit it)."""
-    none = (np.zeros((0, 2)), np.zeros((0, 2)))
-    first, _, sharp = sharp_edges(target)
-    if len(first) == 0 or not sharp.any():
-        return none
-    table = target.edge_table
-    ends = table.edges[table.counts == 2][sharp]
+    ends = crease_ends(target)
+    if len(ends) == 0:
+        return (np.zeros((0, 2)), np.zeros((0, 2)))
     up = np.asarray(target.up, float)
     p = to_plan(np.asarray(target.vertices, float)[ends[:, 0]], up)
     q = to_plan(np.asarray(target.vertices, float)[ends[:, 1]], up)

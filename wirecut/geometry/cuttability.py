@@ -388,13 +388,11 @@ def analyse_surface(target: TargetSurface, job: JobProfile) -> SurfaceAnalysis:
 
 def _crease_length(target: TargetSurface) -> float:
     """Total length (mm) of the target's crease edges."""
-    from wirecut.geometry.creases import sharp_edges
+    from wirecut.geometry.creases import crease_ends
 
-    first, _, sharp = sharp_edges(target)
-    if len(first) == 0 or not sharp.any():
+    ends = crease_ends(target)
+    if len(ends) == 0:
         return 0.0
-    table = target.edge_table
-    ends = table.edges[table.counts == 2][sharp]
     v = np.asarray(target.vertices, float)
     return float(np.linalg.norm(v[ends[:, 1]] - v[ends[:, 0]], axis=1).sum())
 

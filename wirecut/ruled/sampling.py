@@ -491,13 +491,15 @@ def sample_target(
         keep = shapely.intersects_xy(grown, plan[:, 0], plan[:, 1])
         points, weights, face, plan = points[keep], weights[keep], face[keep], plan[keep]
         # a point on the outline counts only for the faces that reach inside the region
-        rim = np.flatnonzero(~shapely.contains_xy(inner, plan[:, 0], plan[:, 1]))
+        on_rim = ~shapely.contains_xy(inner, plan[:, 0], plan[:, 1])
+        rim = np.flatnonzero(on_rim)
         if len(rim):
             drop = rim[~_reaches_into(region, prep, face[rim])]
             if len(drop):
                 keep = np.ones(len(face), bool)
                 keep[drop] = False
                 points, weights, face, plan = points[keep], weights[keep], face[keep], plan[keep]
+                on_rim = on_rim[keep]
         bf, bary, bplan = _boundary_samples(region, prep, spacing)
         if len(bf):
             t = prep.tri[bf]
@@ -506,6 +508,7 @@ def sample_target(
             weights = np.concatenate([weights, np.zeros(len(bf))])
             face = np.concatenate([face, bf])
             plan = np.concatenate([plan, bplan])
+            on_rim = np.concatenate([on_rim, ~shapely.contains_xy(inner, bplan[:, 0], bplan[:, 1])])
 
     rot = transform[:3, :3]
     machine_normals = normals[face] @ rot.T
@@ -513,11 +516,7 @@ def sample_target(
     if region is not None and isinstance(target, TargetSurface):
         # on the outline only the faces inside the piece can hide a point: a sheet edge or a
         # step wall just beyond it belongs to the neighbour's block
-        rim = np.flatnonzero(
-            undercut
-            & (machine_normals[:, 1] > 1e-9)
-            & ~shapely.contains_xy(inner, plan[:, 0], plan[:, 1])
-        )
+        rim = np.flatnonzero(undercut & (machine_normals[:, 1] > 1e-9) & on_rim)
         if len(rim):
             undercut[rim] = occluded_points(
                 target, points[rim], face[rim], counts=lambda f: _reaches_into(region, prep, f)
