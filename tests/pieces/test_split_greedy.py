@@ -197,3 +197,44 @@ def test_sweep_limit_keeps_every_blank_inside_a_block_upright():
             big <= max(k.size_mm[:2]) + 1e-9 and small <= min(k.size_mm[:2]) + 1e-9
             for k in job.stock
         )
+
+
+def test_a_blank_at_the_travel_limit_leaves_room_for_the_lead_in_and_the_overshoot():
+    # a flat panel as long along the sweep as the travel less two home clearances allows: the
+    # program leaves the block by the clearance plus the wire's lag (and the kerf's half), so
+    # the blank must be shorter than that for the towers to stay in the travel
+    import math
+
+    from shapes_pieces import height_target
+
+    from wirecut.config import default_job
+    from wirecut.geometry.frames import DirectionFrame
+    from wirecut.pieces.split import lead_room_mm, split_limits, split_pieces
+    from wirecut.plan import _piece_plan
+    from wirecut.toolpath.kerf import kerf_mm
+    from wirecut.toolpath.lag import block_lag_gain_s
+
+    job = default_job()
+    m = job.machine
+    max_w, longest = split_limits(job)
+    travel = m.travel_x_mm[1] - m.travel_x_mm[0]
+    # the room is the clearance, the lag at cut speed of the widest centred strip, half the
+    # widest kerf (toolpath.build's exit overshoot and kerf offset)
+    z1 = 0.5 * (m.span_mm - max_w)
+    lag = block_lag_gain_s(z1, z1 + max_w, job.wire, m.span_mm) * job.wire.cut_speed_mm_s
+    room = m.home_clearance_mm + lag + 0.5 * float(kerf_mm(0.0, job.wire))
+    assert lead_room_mm(job, max_w) == room and lag > 0.5
+    assert longest == min(travel - 2.0 * room, max(max(s.size_mm[:2]) for s in job.stock))
+    length = travel - 2.0 * m.home_clearance_mm - 2.0 * job.pieces.sweep_margin_mm - 1.0
+    target = height_target(
+        np.linspace(0.0, length, 40), np.linspace(0.0, 600.0, 11), lambda x, y: 100.0 + 0 * x
+    )
+    across = DirectionFrame.from_angle(math.radians(90.0), np.array([0.0, 0.0, 1.0]), "below")
+    pieces = split_pieces(target, None, [across], job).pieces
+    # the 1139 mm blank, 600 mm wide, would need 0.9 mm more travel than there is (no
+    # program at all before the room was kept): two halves instead
+    assert len(pieces) == 2
+    for piece in pieces:
+        plan, findings = _piece_plan(target, piece, job)
+        assert plan.program is not None
+        assert not [f for f in findings if f.code == "outside-travel"]

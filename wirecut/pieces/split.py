@@ -57,6 +57,7 @@ __all__ = [
     "sweep_cuts",
     "strip_count_bound",
     "split_limits",
+    "lead_room_mm",
     "sweep_limit",
     "split_pieces",
     "COARSE_ACCEPT",
@@ -407,15 +408,38 @@ def split_limits(job: JobProfile) -> tuple[float, float]:
     """(widest strip along the wire, longest blank along the sweep), mm.
 
     Along the wire: the usable span (span - 2 face_to_tower) and the longest horizontal side
-    (length or width) of any stock kind. Along the sweep: the x travel minus two home
-    clearances, and the same longest horizontal stock side. Blanks stand upright here; the
-    allocation may still lay one on its side.
+    (length or width) of any stock kind. Along the sweep: the x travel less the room the
+    program needs beyond each end of the blank (:func:`lead_room_mm`), and the same longest
+    horizontal stock side. Blanks stand upright here; the allocation may still lay one on its
+    side.
     """
     m = job.machine
     side = max(max(s.size_mm[0], s.size_mm[1]) for s in job.stock)
     max_w = min(job.usable_width_mm, side)
-    travel = m.travel_x_mm[1] - m.travel_x_mm[0] - 2.0 * m.home_clearance_mm
+    travel = m.travel_x_mm[1] - m.travel_x_mm[0] - 2.0 * lead_room_mm(job, max_w)
     return float(max_w), float(min(travel, side))
+
+
+def lead_room_mm(job: JobProfile, width_mm: float) -> float:
+    """Room (mm) a program needs along the sweep beyond each end of a blank ``width_mm``
+    wide along the wire, placed midway between the towers as the split places it.
+
+    The wire enters a home clearance before the block and leaves it by the clearance plus
+    its lag at the cut speed (the exit overshoot, :mod:`wirecut.toolpath.build`), and the
+    kerf offset may push an end of the path out by up to half the widest kerf. The blank is
+    centred in the x travel, so both ends keep the larger of the two."""
+    from wirecut.toolpath.kerf import kerf_mm
+    from wirecut.toolpath.lag import block_lag_gain_s
+
+    m = job.machine
+    w = float(min(max(width_mm, 0.0), m.span_mm))
+    z1 = 0.5 * (m.span_mm - w)
+    lag = (
+        block_lag_gain_s(z1, z1 + w, job.wire, m.span_mm) * job.wire.cut_speed_mm_s
+        if w > 0
+        else 0.0
+    )
+    return float(m.home_clearance_mm + lag + 0.5 * float(kerf_mm(0.0, job.wire)))
 
 
 def sweep_limit(job: JobProfile, width_mm: float) -> float:
