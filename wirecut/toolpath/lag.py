@@ -195,7 +195,8 @@ def circumradius(path: np.ndarray) -> np.ndarray:
     area2 = np.abs(
         (b[:, 0] - a[:, 0]) * (c[:, 1] - a[:, 1]) - (b[:, 1] - a[:, 1]) * (c[:, 0] - a[:, 0])
     )
-    with np.errstate(divide="ignore", invalid="ignore"):
+    # a huge radius may overflow to inf: a straight run, as it should read
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         r = ab * bc * ca / (2.0 * area2)  # R = abc / (4 area) (standard triangle geometry)
     out[1:-1] = np.where(area2 > 1e-12, r, np.inf)
     return out
