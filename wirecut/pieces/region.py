@@ -281,7 +281,7 @@ def kept_volume_mm3(
     full = idx[inside]
     vol = float(np.sum(area_all[full] * toward[full] * (hmean[full] - base_y)))
     if np.any(touch):
-        clipped = shapely.intersection(triangle_polygons(tri[idx[touch]]), region)
+        clipped = shapely.intersection(polys[touch[exact]], region)  # touch lies in exact
         area = shapely.area(clipped)
         nz = area > 0
         part_idx = idx[touch][nz]
