@@ -15,8 +15,8 @@ def test_candidates_hold_every_box_that_holds_the_point(seed):
     centre = rng.uniform(0.0, 1000.0, (m, 2))
     half = rng.exponential(6.0, (m, 2))  # mostly small boxes, a few long ones
     lo, hi = centre - half, centre + half
-    origin = lo.min(axis=0)
-    grid = PlanGrid.of_boxes(lo, hi, np.arange(m) + 100, origin, hi.max(axis=0) - origin)
+    grid = PlanGrid.covering(lo, hi, np.arange(m) + 100)  # over the boxes' own extent
+    assert np.array_equal(grid.lo, lo.min(axis=0))
     pts = rng.uniform(-50.0, 1050.0, (2000, 2))  # some outside every box
     found = {(int(q), int(b)) for qi, it in grid.candidates(pts, chunk=700)
              for q, b in zip(qi, it, strict=True)}  # fmt: skip

@@ -9,7 +9,8 @@ from shapely.geometry import Polygon
 from shapes_pieces import grid_mesh
 
 from wirecut.geometry.frames import plan_basis
-from wirecut.pieces.region import faces_near_boundary, footprint, kept_volume_mm3, plan_grid_of
+from wirecut.geometry.plan_grid import PlanGrid
+from wirecut.pieces.region import faces_near_boundary, footprint, kept_volume_mm3
 
 UP = np.array([0.0, 0.0, 1.0])
 
@@ -36,7 +37,9 @@ def test_footprint_with_a_shared_grid_is_the_same():
     alone = footprint(v, f, UP)
     e1, e2, _ = plan_basis(UP)
     tri = np.column_stack([v @ e1, v @ e2])[f]
-    shared = footprint(v, f, UP, grid=plan_grid_of(tri, np.arange(len(f))))
+    shared = footprint(
+        v, f, UP, grid=PlanGrid.covering(tri.min(axis=1), tri.max(axis=1), np.arange(len(f)))
+    )
     assert shapely.equals(alone, shared)
     # 400 x 300 minus the 100 x 100 hole (by construction)
     assert alone.area == pytest.approx(400.0 * 300.0 - 100.0 * 100.0, rel=1e-9)
@@ -50,7 +53,7 @@ def test_kept_volume_with_the_faces_near_the_boundary_given_is_the_same():
     alone = kept_volume_mm3(v, f, UP, rot, base, region)
     e1, e2, _ = plan_basis(UP)
     tri = np.column_stack([v @ e1, v @ e2])[f]
-    grid = plan_grid_of(tri, np.arange(len(f)))
+    grid = PlanGrid.covering(tri.min(axis=1), tri.max(axis=1), np.arange(len(f)))
     near = faces_near_boundary(grid, region, len(f))
     assert 0 < near.sum() < len(f)  # the rest are told by their centroids
     assert kept_volume_mm3(v, f, UP, rot, base, region, near=near) == alone

@@ -71,6 +71,14 @@ class PlanGrid:
         order = np.argsort(key, kind="stable")
         return cls(key[order], np.asarray(items)[rep[order]], np.asarray(lo, float), cell, nx, ny)
 
+    @classmethod
+    def covering(cls, box_lo: np.ndarray, box_hi: np.ndarray, items: np.ndarray) -> PlanGrid:
+        """:meth:`of_boxes` over the area the boxes themselves span."""
+        if len(box_lo) == 0:
+            return cls.of_boxes(box_lo, box_hi, items, np.zeros(2), np.ones(2))
+        lo = box_lo.min(axis=0)
+        return cls.of_boxes(box_lo, box_hi, items, lo, box_hi.max(axis=0) - lo)
+
     def candidates(
         self, points: np.ndarray, chunk: int = 200_000
     ) -> Iterator[tuple[np.ndarray, np.ndarray]]:

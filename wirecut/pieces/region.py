@@ -38,7 +38,6 @@ __all__ = [
     "extent_along",
     "kept_volume_mm3",
     "faces_near_boundary",
-    "plan_grid_of",
 ]
 
 
@@ -130,7 +129,8 @@ def footprint(
     probes = shapely.point_on_surface(cells)
     good = signed != 0.0
     if grid is None:
-        grid = plan_grid_of(tri, np.flatnonzero(good))
+        t = tri[good]
+        grid = PlanGrid.covering(t.min(axis=1), t.max(axis=1), np.flatnonzero(good))
     # a cell is inside when a face with a plan area holds its probe: the grid gives each
     # probe the faces whose boxes share its grid cell, tested exactly
     inside = np.zeros(len(cells), bool)
@@ -296,18 +296,6 @@ def kept_volume_mm3(
         hc = hh[:, 0] + lam[:, 0] * (hh[:, 1] - hh[:, 0]) + lam[:, 1] * (hh[:, 2] - hh[:, 0])
         vol += float(np.sum(area[nz] * toward[part_idx] * (hc - base_y)))
     return vol
-
-
-def plan_grid_of(tri: np.ndarray, items: np.ndarray) -> PlanGrid:
-    """A :class:`PlanGrid` of the plan triangles ``tri[items]`` ((m, 3, 2) mm), named by
-    ``items``."""
-    t = np.asarray(tri, float)[np.asarray(items, np.int64)]
-    lo = t.min(axis=1) if len(t) else np.zeros((0, 2))
-    hi = t.max(axis=1) if len(t) else np.zeros((0, 2))
-    if len(t) == 0:
-        return PlanGrid.of_boxes(lo, hi, items, np.zeros(2), np.ones(2))
-    g0 = lo.min(axis=0)
-    return PlanGrid.of_boxes(lo, hi, items, g0, hi.max(axis=0) - g0)
 
 
 def faces_near_boundary(grid: PlanGrid, region: BaseGeometry, m: int) -> np.ndarray:

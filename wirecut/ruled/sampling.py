@@ -280,11 +280,7 @@ class _Prepared:
             usable = np.flatnonzero(np.abs(self.det) > 1e-9)
             if len(usable) == 0:
                 return None
-            lo = self.box_lo[usable].min(axis=0)
-            span = self.box_hi[usable].max(axis=0) - lo
-            self._grid = PlanGrid.of_boxes(
-                self.box_lo[usable], self.box_hi[usable], usable, lo, span
-            )
+            self._grid = PlanGrid.covering(self.box_lo[usable], self.box_hi[usable], usable)
         return self._grid
 
     def faces_near(self, region: shapely.Geometry) -> np.ndarray:
