@@ -277,7 +277,8 @@ def _import_writers() -> None:
 
 def _piece_plan(target, piece, job: JobProfile):
     """(PiecePlan, findings) of one piece: its program (moved along the wire or the sweep when
-    the towers would leave the travel), the program's text and its in-memory replay."""
+    the towers would leave the travel, lifted on a riser when nothing else keeps the wire
+    above the bed and inside the travel), the program's text and its in-memory replay."""
     from wirecut.gcode.replay import replay
     from wirecut.gcode.writer import normalize_program, write_gcode
     from wirecut.toolpath.build import build_program
@@ -287,9 +288,15 @@ def _piece_plan(target, piece, job: JobProfile):
         alt = _replaced_along_wire(piece, job)
         if alt is not None:
             piece, program, report, findings = alt
+    if program is None:
+        # the last resort: a riser under the blank, where the wire runs too low
+        lifted = build_program(piece, job, riser=True)
+        if lifted[0] is not None:
+            program, report, findings = lifted
     shift = float(getattr(report, "shift_x_mm", 0.0) or 0.0) if report is not None else 0.0
-    if shift != 0.0:
-        piece = _shifted(piece, np.array([shift, 0.0, 0.0]))
+    lift = float(getattr(report, "riser_mm", 0.0) or 0.0) if report is not None else 0.0
+    if shift != 0.0 or lift != 0.0:
+        piece = _shifted(piece, np.array([shift, lift, 0.0]))
     samples = _piece_samples(target, piece)
     prediction = text = None
     if program is not None:
@@ -481,6 +488,7 @@ def plan_json(plan: Plan) -> dict:
                 "z": [_f(v) for v in piece.block.z_mm],
             },
             "blank_size_mm": [_f(v) for v in piece.block.size_mm],
+            "riser_mm": _f(piece.block.y_mm[0] - job.machine.bed_y_mm),
             "stock": piece.stock,
             "max_deviation_mm": _f(r.max_abs_mm),
             "rms_deviation_mm": _f(r.rms_mm),

@@ -100,3 +100,82 @@ def test_travel_check_unit():
     right = travel_check(np.array([[1190.0, 10.0, 1210.0, 20.0]]), m)
     assert right.fixable and right.shift_x_mm == pytest.approx(-10.0)  # 1200 - 1210 (by hand)
     assert right.axis == "U" and right.overshoot_mm == pytest.approx(10.0)
+
+
+# ------------------------------------------------------------------ the bed, and risers
+
+RAISED = dataclasses.replace(
+    NO_KERF_NO_LAG, machine=dataclasses.replace(NO_KERF_NO_LAG.machine, bed_y_mm=200.0)
+)
+
+
+def test_travel_check_wire_below_a_raised_bed():
+    m = RAISED.machine  # bed 200, travel y 0-800
+    # towers at Y = V = 150: the wire is at 150 at every plane, 50 mm below the bed (by hand)
+    low = np.array([[100.0, 150.0, 100.0, 150.0], [100.0, 400.0, 100.0, 400.0]])
+    assert travel_check(low, m).ok  # without the blank's faces only the travel is checked
+    no = travel_check(low, m, (300.0, 1300.0))
+    assert not no.ok and not no.fixable and no.axis == ""
+    assert no.below_bed_mm == pytest.approx(50.0)
+    lifted = travel_check(low, m, (300.0, 1300.0), riser=True)
+    # 50 below + a 5 mm gap = 55, a whole 5 mm step already (by hand)
+    assert lifted.fixable and lifted.riser_mm == pytest.approx(55.0) and lifted.shift_x_mm == 0.0
+
+
+def test_travel_check_riser_for_towers_below_the_travel():
+    m = JOB.machine  # bed 0 = bottom of the travel
+    t = np.array([[100.0, 300.0, 100.0, -12.3], [100.0, 700.0, 100.0, 600.0]])
+    assert not travel_check(t, m).fixable
+    r = travel_check(t, m, riser=True)
+    # 12.3 below + 5 = 17.3, up to the next whole 5 mm: 20 (by hand); then 700 + 20 <= 800
+    assert r.fixable and r.riser_mm == pytest.approx(20.0) and r.axis == "V"
+    # lifted by 20 the top tower would stand at 790 + 20 > 800: no riser helps
+    too_tall = t + np.array([0.0, 90.0, 0.0, 0.0])
+    assert not travel_check(too_tall, m, riser=True).fixable
+    # a riser and a shift along the sweep together
+    both = travel_check(t - np.array([120.0, 0.0, 120.0, 0.0]), m, riser=True)
+    assert both.fixable and both.shift_x_mm == pytest.approx(20.0) and both.riser_mm == 20.0
+
+
+def _tilted_piece(right_y: float, block_y=(0.0, 300.0)):
+    # the wire falls from y = 250 at the left face (z 300) to right_y at the right (z 1300)
+    left = np.array([[200.0, 250.0], [800.0, 250.0]])
+    right = np.array([[200.0, right_y], [800.0, right_y]])
+    return make_piece(left, right, (200.0, 800.0), block_y, (300.0, 1300.0))
+
+
+def test_steep_wire_gets_a_riser_only_when_allowed():
+    piece = _tilted_piece(20.0)
+    # right tower plane: 20 + (20 - 250) * 300 / 1000 = -49 mm (similar triangles, by hand)
+    program, _, findings = build_program(piece, NO_KERF_NO_LAG)
+    assert program is None and [f.code for f in findings] == ["outside-travel"]
+    program, report, findings = build_program(piece, NO_KERF_NO_LAG, riser=True)
+    assert program is not None
+    assert report.riser_mm == pytest.approx(55.0)  # 49 + 5 = 54, up to 55 (by hand)
+    assert [f.code for f in findings] == ["on-riser"]
+    assert findings[0].severity is Severity.INFO and "55 mm" in findings[0].message
+    assert "foam" in findings[0].message
+    t = program.positions()
+    assert t[:, [1, 3]].min() == pytest.approx(-49.0 + 55.0)
+    assert ("riser under the blank mm", "55 (foam only: the wire cuts into it)") in program.header
+    np.testing.assert_allclose(report.left_profile[:, 1], 250.0 + 55.0)
+
+
+def test_wire_below_a_raised_bed_is_refused_or_lifted():
+    # bed 200: the cut runs from 300 at the left face to 150 at the right, 50 mm below the
+    # bed there, while the towers stay inside the travel (150 - 0.15 * 300 = 105 >= 0)
+    piece = _tilted_piece(150.0, (200.0, 500.0))
+    piece = dataclasses.replace(
+        piece,
+        fit=type(piece.fit)(
+            dataclasses.replace(piece.fit.cut, left=piece.fit.cut.left + [0.0, 50.0])
+        ),
+    )
+    program, _, findings = build_program(piece, RAISED)
+    assert program is None
+    bed = [f for f in findings if f.code == "below-bed"]
+    assert len(bed) == 1 and "50.0 mm below the bed" in bed[0].message
+    program, report, _ = build_program(piece, RAISED, riser=True)
+    assert program is not None and report.riser_mm == pytest.approx(55.0)
+    low = min(face_points(program.positions(), z, SPAN)[:, 1].min() for z in (300.0, 1300.0))
+    assert low >= RAISED.machine.bed_y_mm + 5.0 - 1e-9

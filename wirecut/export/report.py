@@ -425,6 +425,16 @@ def _sheet(out_dir: Path, sheet: PieceSheet, entry: dict, i: int, pj: dict, img:
             + ", "
             + _cell(by[0], 1, f"{key}block_machine_mm.y.0", "mm"),
         ),
+        *(
+            [
+                (
+                    "Riser under the blank (foam only: the wire cuts into it)",
+                    _cell(entry["riser_mm"], 0, f"{key}riser_mm", "mm"),
+                )
+            ]
+            if entry.get("riser_mm")
+            else []
+        ),
         (
             "Wire direction (part frame)",
             "("

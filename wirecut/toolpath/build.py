@@ -19,8 +19,9 @@ Steps (docs/methods-toolpath.md):
    into the profile's first point; the profile; FEED along the sweep past x max by the lag
    plus the clearance; FEED up above the top; HEAT_OFF; RAPID back over the top.
 5. Towers (:mod:`wirecut.toolpath.towers`): every position extended to the tower planes and
-   checked against the travel; re-placed along the sweep when that fixes it, refused
-   (program None, finding ``outside-travel``) otherwise.
+   checked against the travel and the bed; re-placed along the sweep when that fixes it (and,
+   when the caller allows it, lifted on a foam riser when the wire runs too low), refused
+   (program None, finding ``outside-travel`` or ``below-bed``) otherwise.
 """
 
 from __future__ import annotations
@@ -37,7 +38,7 @@ from wirecut.toolpath.kerf import kerf_floor_speed_mm_s, kerf_mm, offset_polylin
 from wirecut.toolpath.lag import block_lag_gain_s, plan_lag
 from wirecut.toolpath.program import CutProgram, Op
 from wirecut.toolpath.timing import time_moves
-from wirecut.toolpath.towers import shift_x, tower_positions, travel_check
+from wirecut.toolpath.towers import moved, tower_positions, travel_check
 
 if TYPE_CHECKING:
     from wirecut.pieces.piece import Piece
@@ -80,6 +81,9 @@ class ToolpathReport:
     shift_x_mm : float, mm, machine frame
         Shift along the sweep applied to keep the towers in travel (the integrator must add it
         to the piece's placement: ``part_to_machine[0, 3] += shift_x_mm``).
+    riser_mm : float, mm
+        Height of the foam riser the blank stands on (0 for none): every position and the
+        blank are lifted by it (the integrator adds it to ``part_to_machine[1, 3]``).
     left_offset, right_offset : (k, 2) float, mm, machine frame
         The wire centre's path at each face along the cut (kerf offset applied, shift applied).
     left_profile, right_profile : (k, 2) float, mm, machine frame
@@ -107,6 +111,7 @@ class ToolpathReport:
     iterations: int
     last_change_mm: float
     shift_x_mm: float
+    riser_mm: float
     left_offset: np.ndarray
     right_offset: np.ndarray
     left_profile: np.ndarray
@@ -189,6 +194,7 @@ def build_program(
     max_segment_mm: float = 10.0,
     lag_share: float | None = None,
     max_iterations: int = 40,
+    riser: bool = False,
 ) -> tuple[CutProgram | None, ToolpathReport, list[Finding]]:
     """The machine program of one piece.
 
@@ -205,6 +211,9 @@ def build_program(
         the profile's ``tolerance.lag_share``.
     max_iterations : int
         Cap on the kerf/timing fixed-point iterations.
+    riser : bool
+        Where the wire would run below the Y/V travel or below the bed at a face, stand the
+        blank on a foam riser high enough (finding ``on-riser``) instead of refusing.
 
     Returns
     -------
@@ -212,7 +221,8 @@ def build_program(
         None when a position cannot be brought inside the travel.
     report : ToolpathReport
     findings : list of Finding
-        ``re-placed-in-travel`` (info), ``outside-travel``, ``kerf-join-clamped``,
+        ``re-placed-in-travel`` (info), ``on-riser`` (info), ``outside-travel``,
+        ``below-bed``, ``kerf-join-clamped``,
         ``kerf-not-converged``.
     """
     cut = piece.fit.cut
@@ -291,21 +301,45 @@ def build_program(
     lag_plan = plan_lag(mid, v_mid, foam, gain, allowed, wire.lag_relax_s)
 
     findings: list[Finding] = []
-    check = travel_check(towers, machine)
-    shift = 0.0
+    check = travel_check(towers, machine, (z_l, z_r), riser=riser)
+    shift = lift = 0.0
     program: CutProgram | None = None
     if check.fixable:
-        shift = check.shift_x_mm
+        shift, lift = check.shift_x_mm, check.riser_mm
+        if shift != 0.0:
+            findings.append(
+                Finding(
+                    "re-placed-in-travel",
+                    f"piece {piece.id} shifted {shift:+.1f} mm along the sweep to keep the "
+                    f"towers within travel (axis {check.axis} was {check.overshoot_mm:.1f} mm "
+                    "outside)",
+                    piece.id,
+                    Severity.INFO,
+                )
+            )
+        if lift != 0.0:
+            sx, sz = block.size_mm[0], block.size_mm[1]
+            findings.append(
+                Finding(
+                    "on-riser",
+                    f"piece {piece.id}: the blank stands on a riser {lift:.0f} mm high "
+                    f"({sx:.0f} x {sz:.0f} mm, under the whole blank), because the wire runs "
+                    "below the blank's bottom beside the piece; the wire cuts into the riser, "
+                    "so make it of foam, never of wood or metal",
+                    piece.id,
+                    Severity.INFO,
+                )
+            )
+        towers = moved(towers, shift, lift)
+    elif check.below_bed_mm > 0.0 and (not check.axis or check.axis in "YV"):
         findings.append(
             Finding(
-                "re-placed-in-travel",
-                f"piece {piece.id} shifted {shift:+.1f} mm along the sweep to keep the towers "
-                f"within travel (axis {check.axis} was {check.overshoot_mm:.1f} mm outside)",
+                "below-bed",
+                f"piece {piece.id}: the wire would pass {check.below_bed_mm:.1f} mm below the "
+                "bed at a face of the blank and cut into the table; no program written",
                 piece.id,
-                Severity.INFO,
             )
         )
-        towers = shift_x(towers, shift)
     elif not check.ok:
         findings.append(
             Finding(
@@ -366,21 +400,25 @@ def build_program(
     pos += [towers[-1], towers[0]]
     dur += [0.0, 0.0]
     pos_arr = np.asarray(pos)
-    pts_l, pts_r = shift_x(pts_l, shift), shift_x(pts_r, shift)
-    off_l, off_r = shift_x(off_l, shift), shift_x(off_r, shift)
+    pts_l, pts_r = moved(pts_l, shift, lift), moved(pts_r, shift, lift)
+    off_l, off_r = moved(off_l, shift, lift), moved(off_r, shift, lift)
     kerf_l = kerf_mm(timing.left_speed_mm_s[cut_moves], wire)
     kerf_r = kerf_mm(timing.right_speed_mm_s[cut_moves], wire)
     if check.ok or check.fixable:
         header = (
             ("stock", str(piece.stock or "none on hand takes this blank, see the plan findings")),
             ("block x mm", f"{block.x_mm[0] + shift:.3f} {block.x_mm[1] + shift:.3f}"),
-            ("block y mm", f"{block.y_mm[0]:.3f} {block.y_mm[1]:.3f}"),
+            ("block y mm", f"{block.y_mm[0] + lift:.3f} {block.y_mm[1] + lift:.3f}"),
             ("block faces z mm", f"{z_l:.3f} {z_r:.3f}"),
             ("faces from left and right tower mm", f"{z_l:.3f} {machine.span_mm - z_r:.3f}"),
             ("blank size mm", " x ".join(f"{v:.1f}" for v in block.size_mm)),
             ("kerf left mm", f"{kerf_l.min():.3f}-{kerf_l.max():.3f}"),
             ("kerf right mm", f"{kerf_r.min():.3f}-{kerf_r.max():.3f}"),
             ("shift x mm", f"{shift:.3f}"),
+        ) + (
+            (("riser under the blank mm", f"{lift:.0f} (foam only: the wire cuts into it)"),)
+            if lift
+            else ()
         )
         program = CutProgram(
             piece.id, np.asarray(ops), pos_arr, np.asarray(dur), towers[0],
@@ -403,10 +441,11 @@ def build_program(
         iterations=iterations,
         last_change_mm=float(change) if np.isfinite(change) else 0.0,
         shift_x_mm=float(shift),
+        riser_mm=float(lift),
         left_offset=off_l,
         right_offset=off_r,
-        left_profile=shift_x(prof_l, shift),
-        right_profile=shift_x(prof_r, shift),
+        left_profile=moved(prof_l, shift, lift),
+        right_profile=moved(prof_r, shift, lift),
         towers=np.vstack([towers[:1], pos_arr]),
         left_speed_mm_s=timing.left_speed_mm_s,
         right_speed_mm_s=timing.right_speed_mm_s,

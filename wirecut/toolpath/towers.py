@@ -6,14 +6,21 @@ triangles): the point at plane z is (1 - t) P_L + t P_R with t = (z - z_left) / 
 z_left). This is :meth:`wirecut.ruled.model.RuledCut.at_plane`, used here for both towers.
 
 Travel. Every programmed position must lie inside ``travel_x_mm`` x ``travel_y_mm`` for both
-towers. When only the sweep axes (X, U) leave their travel and the whole program's X/U range
+towers, and the wire must not pass below the bed the blank stands on (``bed_y_mm``) at either
+face of the blank: a raised table reaches beyond the blank's faces, and the wire would cut
+into it. When only the sweep axes (X, U) leave their travel and the whole program's X/U range
 fits inside it, the block can be re-placed along the sweep: :func:`travel_check` returns the
-shift in x (mm) that brings every position inside, with the least movement. Height cannot be
-fixed that way (the block stands on the bed), nor can a program wider than the travel.
+shift in x (mm) that brings every position inside, with the least movement. A wire that runs
+too low (below the Y/V travel or below the bed at a face) can, when the caller allows it, be
+lifted by standing the blank on a foam riser: :func:`travel_check` then returns the riser's
+height, rounded up to whole ``RISER_STEP_MM`` with at least ``RISER_GAP_MM`` between the wire
+and the bed, provided the lifted program still fits under the top of the travel. A program
+wider or taller than the travel cannot be fixed.
 """
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 import numpy as np
@@ -21,9 +28,21 @@ import numpy as np
 from wirecut.config import MachineSpec
 from wirecut.ruled.model import RuledCut
 
-__all__ = ["tower_positions", "face_points", "TravelCheck", "travel_check", "shift_x"]
+__all__ = [
+    "tower_positions",
+    "face_points",
+    "TravelCheck",
+    "travel_check",
+    "moved",
+    "RISER_STEP_MM",
+    "RISER_GAP_MM",
+]
 
 _EPS_MM = 1e-9
+#: Risers are cut to whole steps of this height, mm (a height a shop marks with a rule).
+RISER_STEP_MM = 5.0
+#: Least height of the wire above the bed when the blank stands on a riser, mm.
+RISER_GAP_MM = 5.0
 
 
 def tower_positions(
@@ -59,20 +78,26 @@ def face_points(towers: np.ndarray, z_mm: float | np.ndarray, span_mm: float) ->
 
 @dataclass(frozen=True)
 class TravelCheck:
-    """Where a program's positions stand against the machine's travel.
+    """Where a program's positions stand against the machine's travel and its bed.
 
     Attributes
     ----------
     ok : bool
-        Every position inside travel as it is.
+        Every position inside travel and above the bed as it is.
     fixable : bool
-        Not ok, but a shift along the sweep brings every position inside.
+        Not ok, but a shift along the sweep and, where allowed, a riser bring every position
+        inside.
     shift_x_mm : float, mm, machine frame
-        That shift (0 when ok or not fixable).
+        That shift along the sweep (0 when none is needed or the check cannot be fixed).
+    riser_mm : float, mm
+        Height of the foam riser the blank must stand on (0 when none is needed or allowed).
     axis : str
-        The worst axis ("X", "Y", "U" or "V"), "" when ok.
+        The worst tower axis ("X", "Y", "U" or "V"), "" when every tower is inside travel.
     overshoot_mm : float, mm
-        How far the worst position lies outside travel on that axis (0 when ok).
+        How far the worst position lies outside travel on that axis (0 when inside).
+    below_bed_mm : float, mm
+        How far the wire passes below the bed at the blank's faces (0 when it does not, or
+        when no faces were given).
     """
 
     ok: bool
@@ -80,14 +105,34 @@ class TravelCheck:
     shift_x_mm: float
     axis: str
     overshoot_mm: float
+    riser_mm: float = 0.0
+    below_bed_mm: float = 0.0
 
 
 def _excess(values: np.ndarray, lo: float, hi: float) -> np.ndarray:
     return np.maximum(lo - values, 0.0) + np.maximum(values - hi, 0.0)
 
 
-def travel_check(towers: np.ndarray, machine: MachineSpec) -> TravelCheck:
-    """Check tower positions (m, 4) mm against the travel and find a sweep shift if one helps."""
+def travel_check(
+    towers: np.ndarray,
+    machine: MachineSpec,
+    faces_z_mm: tuple[float, float] | None = None,
+    *,
+    riser: bool = False,
+) -> TravelCheck:
+    """Check tower positions (m, 4) mm against the travel and the bed.
+
+    Parameters
+    ----------
+    towers : (m, 4) float, mm
+        Every position of the program.
+    machine : MachineSpec
+        Travel, bed and span.
+    faces_z_mm : (2,) float, mm, optional
+        The blank's faces; the wire's crossings of them must not lie below the bed.
+    riser : bool
+        Allow lifting the blank on a riser when the wire runs too low.
+    """
     t = np.asarray(towers, float)
     lo_x, hi_x = machine.travel_x_mm
     lo_y, hi_y = machine.travel_y_mm
@@ -100,25 +145,41 @@ def travel_check(towers: np.ndarray, machine: MachineSpec) -> TravelCheck:
         ]
     )
     worst = excess.max(axis=0)
-    if worst.max() <= _EPS_MM:
-        return TravelCheck(True, False, 0.0, "", 0.0)
     axis_i = int(np.argmax(worst))
-    axis = "XYUV"[axis_i]
-    over = float(worst[axis_i])
-    if max(worst[1], worst[3]) > _EPS_MM:
-        return TravelCheck(False, False, 0.0, axis, over)
+    axis = "XYUV"[axis_i] if worst[axis_i] > _EPS_MM else ""
+    over = float(worst[axis_i]) if axis else 0.0
+    below = 0.0
+    if faces_z_mm is not None and len(t):
+        low = min(float(face_points(t, float(z), machine.span_mm)[:, 1].min()) for z in faces_z_mm)
+        below = max(machine.bed_y_mm - low, 0.0)
+    if not axis and below <= _EPS_MM:
+        return TravelCheck(True, False, 0.0, "", 0.0)
+    no = TravelCheck(False, False, 0.0, axis, over, 0.0, below if below > _EPS_MM else 0.0)
+    ys = t[:, [1, 3]]
+    y_lo, y_hi = float(ys.min()), float(ys.max())
+    lift = 0.0
+    if below > _EPS_MM or y_lo < lo_y - _EPS_MM:
+        if not riser:
+            return no
+        need = max(below, lo_y - y_lo, 0.0)
+        lift = RISER_STEP_MM * math.ceil((need + RISER_GAP_MM) / RISER_STEP_MM - 1e-9)
+    if y_hi + lift > hi_y + _EPS_MM:
+        return no
     xs = t[:, [0, 2]]
     x_min, x_max = float(xs.min()), float(xs.max())
     if x_max - x_min > hi_x - lo_x:
-        return TravelCheck(False, False, 0.0, axis, over)
-    shift = lo_x - x_min if x_min < lo_x else hi_x - x_max
-    return TravelCheck(False, True, float(shift), axis, over)
+        return no
+    shift = lo_x - x_min if x_min < lo_x else hi_x - x_max if x_max > hi_x else 0.0
+    return TravelCheck(False, True, float(shift), axis, over, float(lift), no.below_bed_mm)
 
 
-def shift_x(points: np.ndarray, shift_mm: float) -> np.ndarray:
-    """Add ``shift_mm`` to the x coordinates: columns 0 of (n, 2), columns 0 and 2 of (n, 4)."""
+def moved(points: np.ndarray, dx_mm: float, dy_mm: float = 0.0) -> np.ndarray:
+    """Add ``dx_mm`` to the x and ``dy_mm`` to the y coordinates: columns (0, 1) of (n, 2),
+    columns (0, 1) and (2, 3) of (n, 4)."""
     p = np.array(points, float, copy=True)
-    p[..., 0] += shift_mm
+    p[..., 0] += dx_mm
+    p[..., 1] += dy_mm
     if p.shape[-1] == 4:
-        p[..., 2] += shift_mm
+        p[..., 2] += dx_mm
+        p[..., 3] += dy_mm
     return p
