@@ -291,8 +291,8 @@ def _piece_plan(target, piece, job: JobProfile):
     if program is None:
         # the last resort: a riser under the blank, where the wire runs too low
         lifted = build_program(piece, job, riser=True)
-        if lifted[0] is not None:
-            program, report, findings = lifted
+        if lifted[0] is not None or any(f.code == "below-bed" for f in lifted[2]):
+            program, report, findings = lifted  # the riser, or why none helps
     shift = float(getattr(report, "shift_x_mm", 0.0) or 0.0) if report is not None else 0.0
     lift = float(getattr(report, "riser_mm", 0.0) or 0.0) if report is not None else 0.0
     if shift != 0.0 or lift != 0.0:

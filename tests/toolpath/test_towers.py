@@ -179,3 +179,19 @@ def test_wire_below_a_raised_bed_is_refused_or_lifted():
     assert program is not None and report.riser_mm == pytest.approx(55.0)
     low = min(face_points(program.positions(), z, SPAN)[:, 1].min() for z in (300.0, 1300.0))
     assert low >= RAISED.machine.bed_y_mm + 5.0 - 1e-9
+
+
+def test_a_riser_that_would_lift_the_towers_over_the_top_is_named():
+    # the falling wire of the raised-bed case, its left face near the top of the travel:
+    # the 55 mm riser would take the towers from 780 + 0.3 * 150... over 800 (by hand)
+    piece = _tilted_piece(150.0, (200.0, 760.0))
+    piece = dataclasses.replace(
+        piece,
+        fit=type(piece.fit)(
+            dataclasses.replace(piece.fit.cut, left=piece.fit.cut.left + [0.0, 480.0])
+        ),
+    )
+    program, report, findings = build_program(piece, RAISED, riser=True)
+    assert program is None and report.riser_mm == 0.0
+    bed = [f for f in findings if f.code == "below-bed"]
+    assert len(bed) == 1 and "a riser high enough (55 mm)" in bed[0].message

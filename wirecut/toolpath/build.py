@@ -332,11 +332,17 @@ def build_program(
             )
         towers = moved(towers, shift, lift)
     elif check.below_bed_mm > 0.0 and (not check.axis or check.axis in "YV"):
+        higher = (
+            f"; a riser high enough ({check.riser_mm:.0f} mm) would lift the towers above the "
+            "Y/V travel"
+            if check.riser_mm
+            else ""
+        )
         findings.append(
             Finding(
                 "below-bed",
                 f"piece {piece.id}: the wire would pass {check.below_bed_mm:.1f} mm below the "
-                "bed at a face of the blank and cut into the table; no program written",
+                f"bed at a face of the blank and cut into the table{higher}; no program written",
                 piece.id,
             )
         )

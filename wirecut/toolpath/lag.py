@@ -269,7 +269,7 @@ def plan_lag(
     # (the bow's direction trails the path's by omega tau = v tau / rho): with l = g v the error
     # is v^2 (g^2 / 2 + g tau) / rho
     coeff = 0.5 * gain_s * gain_s + gain_s * relax_s
-    with np.errstate(divide="ignore"):
+    with np.errstate(divide="ignore", over="ignore"):  # no lag (coeff 0): no cap
         v_vertex = np.where(coeff > 0, np.sqrt(rho * allowed_mm / max(coeff, 1e-300)), np.inf)
     cap = np.minimum(v_vertex[:-1], v_vertex[1:]) if k >= 2 else np.zeros(0)
     return LagPlan(turn, corner, dwell, cap, err)

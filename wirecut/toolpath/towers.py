@@ -21,7 +21,7 @@ wider or taller than the travel cannot be fixed.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -90,7 +90,8 @@ class TravelCheck:
     shift_x_mm : float, mm, machine frame
         That shift along the sweep (0 when none is needed or the check cannot be fixed).
     riser_mm : float, mm
-        Height of the foam riser the blank must stand on (0 when none is needed or allowed).
+        Height of the foam riser the blank must stand on (0 when none is needed or allowed;
+        when one was allowed but cannot be fixed, the height that was needed).
     axis : str
         The worst tower axis ("X", "Y", "U" or "V"), "" when every tower is inside travel.
     overshoot_mm : float, mm
@@ -164,7 +165,7 @@ def travel_check(
         need = max(below, lo_y - y_lo, 0.0)
         lift = RISER_STEP_MM * math.ceil((need + RISER_GAP_MM) / RISER_STEP_MM - 1e-9)
     if y_hi + lift > hi_y + _EPS_MM:
-        return no
+        return replace(no, riser_mm=float(lift))
     xs = t[:, [0, 2]]
     x_min, x_max = float(xs.min()), float(xs.max())
     if x_max - x_min > hi_x - lo_x:
