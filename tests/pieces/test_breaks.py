@@ -206,15 +206,36 @@ def test_the_direction_search_lays_its_trial_strips_between_break_lines() -> Non
     assert without[0] < with_lines[0] - 0.05
 
 
-def test_pinned_knots_move_the_nearest_knot_and_keep_half_a_spacing() -> None:
+def test_pinned_knots_move_the_nearest_knot_or_add_one() -> None:
     from wirecut.ruled.fit import pinned_knots
 
     knots = np.linspace(0.0, 100.0, 11)  # every 10 mm
-    moved = pinned_knots(knots, np.array([33.0, 61.0, 2.0, 98.0, 500.0]))
-    assert moved[3] == 33.0 and moved[6] == 61.0
-    # 2 and 98 would move an end knot (or leave a gap under half a spacing): left alone
-    assert moved[0] == 0.0 and moved[-1] == 100.0 and moved[1] == 10.0 and moved[9] == 90.0
-    assert np.all(np.diff(moved) >= 5.0)
+    moved = pinned_knots(knots, np.array([33.0, 61.0, 2.0, 98.0, 500.0, 0.0]))
+    # the knots at 30 and 60 moved onto 33 and 61
+    assert 33.0 in moved and 61.0 in moved and 30.0 not in moved and 60.0 not in moved
+    # 2 and 98 would move an end knot: a knot is added on each instead; 500 and 0 lie outside
+    # (or on a knot already)
+    assert list(moved[:3]) == [0.0, 2.0, 10.0] and list(moved[-3:]) == [90.0, 98.0, 100.0]
+    assert len(moved) == 13 and np.all(np.diff(moved) > 0)
+    # a step's wall: foot and top 4 mm apart, both nearest one knot: it takes one, a knot is
+    # added on the other
+    wall = pinned_knots(knots, np.array([48.0, 52.0]))
+    assert 48.0 in wall and 52.0 in wall and len(wall) == 12
+    assert np.all(np.diff(wall) > 0)
+
+
+def test_skew_limits_follow_the_gaps_of_pinned_knots() -> None:
+    from wirecut.ruled.skew import CROSSING, knot_gaps, monotone_seed
+
+    even = np.linspace(0.0, 100.0, 11)
+    assert knot_gaps(even) == even[1] - even[0]
+    knots = np.array([0.0, 10.0, 12.0, 20.0, 30.0])
+    gaps = knot_gaps(knots)
+    np.testing.assert_array_equal(gaps, [10.0, 2.0, 8.0, 10.0])
+    wild = np.array([0.0, 30.0, -30.0, 30.0, 0.0])
+    s = monotone_seed(wild, gaps, np.full(5, -50.0), np.full(5, 50.0))
+    # neighbours at most CROSSING gaps apart, so rulings 2 mm apart stay nearly parallel
+    assert np.all(np.abs(np.diff(s)) <= CROSSING * np.asarray(gaps) + 1e-12)
 
 
 def test_a_ridge_along_the_wire_is_followed_by_a_knot() -> None:
@@ -314,3 +335,35 @@ def test_the_direction_score_puts_a_knot_on_a_ridge_along_the_wire() -> None:
     assert pinned[1] < 1e-3
     assert pinned[1] <= plain[1] + 1e-12
     assert pinned[0] == pytest.approx(1.0)
+
+
+@pytest.mark.parametrize("correspondence", [False, True])
+def test_both_corners_of_a_narrow_wall_get_a_knot(correspondence) -> None:
+    # a step whose wall along the wire rises 80 mm over 10 mm (a wall one grid cell wide):
+    # its foot and top are creases 10 mm apart, between knots 28 mm apart, so the nearest
+    # knot of both is the same one. Each corner needs a knot (a chord across the other cut
+    # it off by 20 mm when only one had a knot), and the skews of the two close rulings stay within
+    # their own gap, so the cut stays one that does not cross itself
+    from wirecut.geometry.frames import rigid
+    from wirecut.ruled.fit import fit_cut
+    from wirecut.ruled.sampling import sample_target
+
+    xs = np.concatenate([np.arange(0.0, 291.0, 10.0), np.arange(300.0, 601.0, 10.0)])
+    ys = np.linspace(0.0, 400.0, 21)
+    job = quick_job()
+    target = height_target(xs, ys, lambda x, y: np.where(x <= 290.0, 200.0, 280.0), job)
+    along = frame(90.0)
+    transform = rigid(along.rotation, np.zeros(3))
+    samples = sample_target(target, transform, spacing_mm=5.0)
+    z, x = samples.points[:, 2], samples.points[:, 0]
+    corners = np.sort(break_lines(target, np.array([1.0, 0.0]), 25.0))
+    assert np.allclose(corners, [290.0, 300.0])  # foot and top of the wall (part x)
+    at = np.sort(np.array([290.0, 300.0]) * along.rotation[0, 0])  # machine x of the corners
+    x_range = (float(x.min()) - 5.0, float(x.max()) + 5.0)
+    args = (samples, float(z.min()), float(z.max()), transform, job.tolerance)
+    fit = fit_cut(*args, x_range=x_range, ruling_spacing_mm=28.0,
+                  correspondence=correspondence, knots_at=at)  # fmt: skip
+    mid = 0.5 * (fit.cut.left[:, 0] + fit.cut.right[:, 0])
+    assert np.min(np.abs(mid[:, None] - at[None, :]), axis=0).max() < 1e-9
+    assert fit.report.max_abs_mm < 0.05
+    assert fit.cut.is_monotone()

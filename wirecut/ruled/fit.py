@@ -54,6 +54,7 @@ from wirecut.ruled.sampling import TargetSamples
 from wirecut.ruled.skew import (
     MAX_SLOPE,
     end_bounds,
+    knot_gaps,
     local_hessians,
     monotone_seed,
     ruled_cut,
@@ -132,23 +133,38 @@ def estimate_sweep_curvature(points: np.ndarray, window_mm: float | None = None)
 
 
 def pinned_knots(knots: np.ndarray, at: np.ndarray) -> np.ndarray:
-    """Evenly spaced ``knots`` (k,) mm with the nearest inner knot moved onto each position of
-    ``at`` (mm) that lies inside them. A section with a corner (the target's crease) between
-    two knots is cut off by their chord, by about the corner's offset from the nearer knot
-    times the slope change over two; on the corner it is followed exactly. A move is kept
-    only while every gap stays at least half the spacing (so that the skew limits, set in
-    spacings, still keep neighbouring rulings from crossing)."""
+    """Evenly spaced ``knots`` (k,) mm with a knot on each position of ``at`` (mm) that lies
+    strictly inside them: the nearest inner knot moved onto it while that keeps both its gaps
+    at least half the spacing and no other position has taken it, else a knot added there
+    (the two corners of a step's wall, 10 mm apart between knots 28 mm apart, each get one).
+    A section with a corner (the target's crease) between two knots is cut off by their
+    chord, by about the corner's offset from the nearer knot times the slope change over two;
+    on the corner it is followed exactly. The result may hold more knots than ``knots``, and
+    uneven gaps: the skew limits are set per gap (:func:`wirecut.ruled.skew.monotone_seed`),
+    so that close rulings stay close to parallel and never cross."""
     out = np.array(knots, float)
     k = len(out)
     if k < 3:
         return out
     dx = float(out[1] - out[0])
-    for p in np.sort(at):
-        i = int(round((p - out[0]) / dx))
-        if not 1 <= i <= k - 2:
+    lo, hi = float(out[0]), float(out[-1])
+    eps = 1e-6 * dx
+    taken = np.zeros(k, bool)
+    added = []
+    for p in np.unique(np.asarray(at, float)):
+        if not lo + eps < p < hi - eps:
             continue
-        if out[i - 1] + 0.5 * dx <= p <= out[i + 1] - 0.5 * dx:
-            out[i] = p
+        i = int(round((p - lo) / dx))
+        on = np.abs(out - p) <= eps
+        if on.any() or any(abs(q - p) <= eps for q in added):
+            taken |= on  # a knot there already: it stays
+            continue
+        if 1 <= i <= k - 2 and not taken[i] and out[i - 1] + 0.5 * dx <= p <= out[i + 1] - 0.5 * dx:
+            out[i], taken[i] = p, True
+        else:
+            added.append(float(p))
+    if added:
+        out = np.sort(np.concatenate([out, added]))
     return out
 
 
@@ -293,7 +309,9 @@ def fit_cut(
     dx = float(knots[1] - knots[0])
     if knots_at is not None and len(knots_at):
         knots = pinned_knots(knots, np.asarray(knots_at, float))
+        k = len(knots)
     h = dx
+    gaps = knot_gaps(knots)  # the skew limits between neighbouring rulings
 
     ny_t = np.clip(samples.normals[use, 1], 0.05, 1.0)
     c = np.sqrt(np.maximum(samples.weights[use], 0.05 * max(samples.weights[use].mean(), 1e-12)))
@@ -344,7 +362,7 @@ def fit_cut(
         xs_, ys_, zs_, cs_ = x[sub], yt[sub], z[sub], c[sub]
         tried = []
         for m in (s_zero, scan / width, hi, lo):
-            s = monotone_seed(m * width, dx, end_lb, end_ub)
+            s = monotone_seed(m * width, gaps, end_lb, end_ub)
             flat = ruled_cut(knots - s / 2, knots + s / 2, s_zero, s_zero, z_left, z_right, None)
             a, _ = _design(flat, xs_, zs_)
             y1 = _least_squares_heights(a, ys_, cs_, k)
@@ -357,7 +375,7 @@ def fit_cut(
             # the skew a fit of a larger region found (the split's strip): interpolated onto
             # these knots, a start the seeds above may not reach on this region alone
             hx, hs = (np.asarray(v, float) for v in skew_hint)
-            s = monotone_seed(np.interp(knots, hx, hs), dx, end_lb, end_ub)
+            s = monotone_seed(np.interp(knots, hx, hs), gaps, end_lb, end_ub)
             if np.any(s):
                 flat = ruled_cut(knots - s / 2, knots + s / 2, s_zero, s_zero, z_left, z_right,
                                  None)  # fmt: skip
@@ -376,7 +394,7 @@ def fit_cut(
                 # the solver keeps rulings apart by a penalty, which a strong pull can
                 # overcome by a little: clip to rulings that cannot cross (else the fit is
                 # thrown away)
-                s = monotone_seed(s, dx, end_lb, end_ub)
+                s = monotone_seed(s, gaps, end_lb, end_ub)
             cut3, eps3, rounds3, _ = linear_fit(s, y1)
             iterations += rounds3
             if cut3.is_monotone():

@@ -30,6 +30,7 @@ __all__ = [
     "skew_scan",
     "end_bounds",
     "monotone_seed",
+    "knot_gaps",
     "skew_solve",
     "ruled_cut",
     "second_difference",
@@ -169,10 +170,12 @@ def skew_scan(x, y, z, grad, knots, z_left, z_right, reach) -> np.ndarray:
     (dynamic programming over the knots) picks one candidate per knot with neighbouring skews
     less than two knot spacings apart (rulings k and k + 1 cross inside the block once
     ``|s_{k+1} - s_k| >= 2 dX``), and the tiny cost on skew changes keeps it on one ruling
-    family of a doubly ruled surface.
+    family of a doubly ruled surface. With knots pinned onto creases, the rule holds per gap.
     """
     k = len(knots)
-    dx = float(knots[1] - knots[0])
+    spacing = knot_gaps(knots)
+    gaps = np.broadcast_to(spacing, (max(k - 1, 0),))
+    dx = float(np.median(gaps)) if np.ndim(spacing) else float(spacing)  # were some pinned
     if reach <= 0 or len(x) < 12:
         return np.zeros(k)
     step = min(dx / 2.0, reach / 10.0)
@@ -208,12 +211,15 @@ def skew_scan(x, y, z, grad, knots, z_left, z_right, reach) -> np.ndarray:
     cost = np.where(cnt >= 7, cost, np.inf)
     cost = np.where(np.isfinite(cost).any(axis=1, keepdims=True), cost, 0.0)
     jump = np.abs(cand[:, None] - cand[None, :])
-    allowed = max(CROSSING * dx, float(cand[1] - cand[0])) + 1e-9
-    trans = np.where(jump <= allowed, 1e-6 * jump, np.inf)
+    least = float(cand[1] - cand[0]) if len(cand) > 1 else 0.0
+    trans_of = {}
     total = cost[0].copy()
     back = np.zeros((k, len(cand)), int)
     for i in range(1, k):
-        options = total[:, None] + trans
+        allowed = max(CROSSING * float(gaps[i - 1]), least) + 1e-9
+        if allowed not in trans_of:
+            trans_of[allowed] = np.where(jump <= allowed, 1e-6 * jump, np.inf)
+        options = total[:, None] + trans_of[allowed]
         back[i] = np.argmin(options, axis=0)
         total = options[back[i], np.arange(len(cand))] + cost[i]
     pick = np.empty(k, int)
@@ -245,27 +251,44 @@ def end_bounds(x, t, knots) -> tuple[np.ndarray, np.ndarray]:
     return lb, ub
 
 
-def monotone_seed(s: np.ndarray, dx: float, lb: np.ndarray, ub: np.ndarray) -> np.ndarray:
-    """Clip a skew seed into [lb, ub] with neighbouring skews at most ``CROSSING dx`` apart
-    (rulings that do not cross, faces that do not crawl).
+def knot_gaps(knots: np.ndarray) -> float | np.ndarray:
+    """The knots' spacing (mm): one float for evenly spaced knots (the first gap, as
+    ``numpy.linspace`` made them), else the (K - 1,) gaps (knots pinned onto creases)."""
+    kn = np.asarray(knots, float)
+    if len(kn) < 2:
+        return 0.0
+    gaps = np.diff(kn)
+    if np.allclose(gaps, gaps[0], rtol=1e-9, atol=0.0):
+        return float(kn[1] - kn[0])
+    return gaps
+
+
+def monotone_seed(s: np.ndarray, dx, lb: np.ndarray, ub: np.ndarray) -> np.ndarray:
+    """Clip a skew seed into [lb, ub] with neighbouring skews at most ``CROSSING`` times their
+    knots' gap apart (rulings that do not cross, faces that do not crawl). ``dx`` is the gap
+    (mm), one for all, or (K - 1,) per pair of neighbours (knots pinned onto creases).
 
     The bounds are first tightened by what the neighbour rule carries along the rulings (a
     tight bound at an end ruling limits the rulings next to it), so that the clipping passes
     that follow always find a value within both the bounds and the rule."""
-    gap = CROSSING * dx
+    gap = CROSSING * np.broadcast_to(np.asarray(dx, float), (max(len(s) - 1, 0),))
     lo = np.array(lb, float)
     hi = np.array(ub, float)
     for k in range(1, len(s)):
-        lo[k], hi[k] = max(lo[k], lo[k - 1] - gap), min(hi[k], hi[k - 1] + gap)
+        g = gap[k - 1]
+        lo[k], hi[k] = max(lo[k], lo[k - 1] - g), min(hi[k], hi[k - 1] + g)
     for k in range(len(s) - 2, -1, -1):
-        lo[k], hi[k] = max(lo[k], lo[k + 1] - gap), min(hi[k], hi[k + 1] + gap)
+        g = gap[k]
+        lo[k], hi[k] = max(lo[k], lo[k + 1] - g), min(hi[k], hi[k + 1] + g)
     if np.any(lo > hi):  # bounds no skew can meet together: the plainest that meets them
         return np.clip(np.zeros(len(s)), lb, ub)
     s = np.clip(s, lo, hi)
     for k in range(1, len(s)):
-        s[k] = min(max(s[k], s[k - 1] - gap, lo[k]), s[k - 1] + gap, hi[k])
+        g = gap[k - 1]
+        s[k] = min(max(s[k], s[k - 1] - g, lo[k]), s[k - 1] + g, hi[k])
     for k in range(len(s) - 2, -1, -1):
-        s[k] = min(max(s[k], s[k + 1] - gap, lo[k]), s[k + 1] + gap, hi[k])
+        g = gap[k]
+        s[k] = min(max(s[k], s[k + 1] - g, lo[k]), s[k + 1] + g, hi[k])
     return s
 
 
@@ -275,14 +298,15 @@ def skew_solve(pts, c, knots, s0, y0, z_left, z_right, m, lb, ub):
     rulings never cross (the rulings k and k + 1 cross inside the block once
     ``|s_{k+1} - s_k| >= 2 dX``) are kept by projecting every trial skew with
     :func:`monotone_seed` (neighbours within ``CROSSING`` dX), so the cost is always that of
-    a cut the machine can make. Knots evenly spaced."""
+    a cut the machine can make. Knots evenly spaced, or pinned onto creases (the rule then
+    holds per gap)."""
     k = len(knots)
     x, yt, z = pts[:, 0], pts[:, 1], pts[:, 2]
     d2 = second_difference(k)
     lam = 1e-2 * _SMOOTH * math.sqrt(float((c * c).sum()) / max(k, 1))
     reg = lam * sp.block_diag([d2, d2, d2]).tocsr()
     n = len(x)
-    dx = float(knots[1] - knots[0])
+    dx = knot_gaps(knots)
 
     def project(v):
         return np.concatenate([monotone_seed(v[:k].copy(), dx, lb, ub), v[k:]])
