@@ -143,3 +143,13 @@ def test_with_tolerance():
     assert job.tolerance.surface_mm == 0.2
     with pytest.raises(ProfileError):
         default_job().with_tolerance(0.0)
+
+
+def test_drivable_slope_by_hand():
+    from wirecut.config import MachineSpec
+
+    m = MachineSpec()  # travel x 0-1200, clearance 30, span 1600
+    # (1200 - 740 - 2 x 30) / 1600 = 0.25 (by hand)
+    assert m.drivable_slope(740.0) == pytest.approx(0.25)
+    assert m.drivable_slope(1200.0) == 0.0  # no room beside the blank
+    assert m.drivable_slope(-1e6) == 1.0  # capped at 45 degrees

@@ -137,6 +137,15 @@ class MachineSpec:
     home_clearance_mm: float = 30.0
     heat_power: float = 60.0
 
+    def drivable_slope(self, sweep_mm: float) -> float:
+        """Steepest plan slope |dx/dz| of a ruling the towers can follow across a blank
+        ``sweep_mm`` long: extended to the tower planes, a ruling of slope m reaches about
+        ``m * span`` further along the sweep at one tower than at the other, which must fit
+        in the x travel beside the blank and the two clearances (at most 1: rulings within
+        45 degrees of the wire)."""
+        room = (self.travel_x_mm[1] - self.travel_x_mm[0]) - sweep_mm - 2 * self.home_clearance_mm
+        return float(min(max(room, 0.0) / self.span_mm, 1.0))
+
 
 @dataclass(frozen=True)
 class WireSpec:

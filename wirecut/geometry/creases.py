@@ -11,9 +11,10 @@ step and a 0.5 mm tolerance any crease sharper than about 6 deg then fails, even
 narrowest width.
 
 So the footprint is first cut at every crease that runs along the sweep, and the strips are
-searched between those cuts. Only creases along the sweep matter: one that runs along the wire
-is a ruling (the wire lies in it), and one that runs across both cannot be kept out of a strip
-by any cut across the wire.
+searched between those cuts. Only creases along the sweep are break lines: one that runs along
+the wire is a ruling (the wire lies in it: its knot comes from :func:`break_lines` given the
+sweep, or, for one not parallel to the wire, its skewed line from :func:`crease_lines`), and
+one that runs across both cannot be kept out of a strip by any cut across the wire.
 
 The edges come from the target's edge table (:class:`wirecut.geometry.mesh.EdgeTable`); the
 dihedral angle of an edge is the angle between its two faces' normals.
@@ -36,6 +37,8 @@ __all__ = [
     "crease_ends",
     "crease_edges",
     "break_lines",
+    "crease_lines",
+    "PARALLEL_SKEW_MM",
     "nearest_gap",
     "segments",
 ]
@@ -166,6 +169,118 @@ def break_lines(target: Any, wire: np.ndarray, min_length_mm: float) -> np.ndarr
         cum = np.cumsum(w)
         out.append(float(t[lo + int(np.searchsorted(cum, 0.5 * cum[-1]))]))
     return np.asarray(out, float)
+
+
+#: Crease edges whose lines cross both faces of a strip within this share of its width of
+#: each other belong to one crease line (a curved ridge's tangents spread by about four times
+#: its sagitta over the strip).
+_LINE_GATHER_SHARE = 0.05
+#: Least length along the wire of a crease line, as a share of the strip's width.
+_LINE_LEAST_SHARE = 0.25
+#: A crease line whose skew across its strip is at most this (mm) runs parallel to the wire:
+#: its knot is one of the ridges (:func:`break_lines` along the sweep), its skew left to the
+#: fit; the others are followed with their skew fixed.
+PARALLEL_SKEW_MM = 1e-3
+
+
+def crease_lines(
+    target: Any,
+    transform: np.ndarray,
+    z_left: float,
+    z_right: float,
+    region: Any = None,
+    max_slope: float = 1.0,
+) -> tuple[np.ndarray, np.ndarray]:
+    """The creases that run along the wire of one strip, as straight lines in its machine frame.
+
+    A crease within 45 degrees of the wire (``max_slope`` = |dx/dz|) but not along it (a
+    hipped roof's hip, a fold not parallel to the others, a ridge that curves in plan) is no
+    break line (it crosses no cut across the wire) and not a vertical ruling either: the
+    ruling that follows it is skewed, from where it crosses the left face to where it crosses
+    the right. The crease edges of the target that lie in the strip (their machine z between
+    the faces and, when ``region`` (a plan polygon) is given, their plan midpoint inside it)
+    are gathered into lines by where they cross the two faces (within
+    ``_LINE_GATHER_SHARE`` of the width); a line shorter along the wire than
+    ``_LINE_LEAST_SHARE`` of the width is left out; each kept line is the length-weighted
+    least-squares line through its edges' midpoints.
+
+    Parameters
+    ----------
+    target : TargetSurface
+    transform : (4, 4) float
+        The strip's placement, part -> machine.
+    z_left, z_right : float, mm
+        The strip's faces, machine z.
+    region : shapely geometry, optional
+        Plan region the edges must lie in.
+
+    Returns
+    -------
+    x_mid : (j,) float, mm
+        Machine x where each line crosses the mid-plane ``(z_left + z_right) / 2``, ascending.
+    skew : (j,) float, mm
+        Its x at the right face less its x at the left face (a ruling's skew).
+    """
+    empty = (np.zeros(0), np.zeros(0))
+    ends = crease_ends(target)
+    width = float(z_right - z_left)
+    if len(ends) == 0 or not width > 0:
+        return empty
+    v = np.asarray(target.vertices, float)
+    m = np.asarray(transform, float)
+    p = v[ends[:, 0]] @ m[:3, :3].T + m[:3, 3]
+    q = v[ends[:, 1]] @ m[:3, :3].T + m[:3, 3]
+    dz, dx = q[:, 2] - p[:, 2], q[:, 0] - p[:, 0]
+    cz = 0.5 * (p[:, 2] + q[:, 2])
+    keep = (np.abs(dz) > 1e-9) & (np.abs(dx) <= max_slope * np.abs(dz))
+    keep &= (cz >= z_left) & (cz <= z_right)
+    if region is not None and keep.any():
+        import shapely
+
+        up = np.asarray(target.up, float)
+        mid = to_plan(0.5 * (v[ends[keep, 0]] + v[ends[keep, 1]]), up)
+        keep[np.flatnonzero(keep)] = shapely.contains_xy(region, mid[:, 0], mid[:, 1])
+    if not keep.any():
+        return empty
+    slope = dx[keep] / dz[keep]
+    cx = 0.5 * (p[keep, 0] + q[keep, 0])
+    zc = cz[keep]
+    length = np.abs(dz[keep])
+    xl = cx + slope * (z_left - zc)
+    xr = cx + slope * (z_right - zc)
+    gather = _LINE_GATHER_SHARE * width
+    order = np.argsort(0.5 * (xl + xr), kind="stable")
+    used = np.zeros(len(order), bool)
+    z_mid = 0.5 * (z_left + z_right)
+    out_x, out_s = [], []
+    for n, i in enumerate(order):
+        if used[n]:
+            continue
+        rest = order[n:]
+        near = (~used[n:]) & (np.abs(xl[rest] - xl[i]) <= gather)
+        near &= np.abs(xr[rest] - xr[i]) <= gather
+        members = rest[near]
+        used[n:][near] = True
+        w = length[members]
+        if w.sum() < _LINE_LEAST_SHARE * width:
+            continue
+        # x = a + b (z - z_mid), weighted least squares through the edges' midpoints
+        zz = zc[members] - z_mid
+        sw, swz, swzz = w.sum(), (w * zz).sum(), (w * zz * zz).sum()
+        swx, swxz = (w * cx[members]).sum(), (w * cx[members] * zz).sum()
+        det = sw * swzz - swz * swz
+        if det <= 1e-12 * max(sw * swzz, 1e-300):
+            continue  # all at one z: no direction to follow
+        b = (sw * swxz - swz * swx) / det
+        a = (swx - b * swz) / sw
+        if abs(b) > max_slope:
+            continue
+        out_x.append(float(a))
+        out_s.append(float(b * width))
+    if not out_x:
+        return empty
+    order = np.argsort(out_x)
+    return np.asarray(out_x)[order], np.asarray(out_s)[order]
 
 
 def nearest_gap(t: np.ndarray, lines: np.ndarray) -> np.ndarray:

@@ -33,7 +33,7 @@ from shapely.geometry import Polygon
 from wirecut.config import JobProfile
 from wirecut.errors import JobError
 from wirecut.findings import Finding, Severity
-from wirecut.geometry.creases import break_lines, segments
+from wirecut.geometry.creases import PARALLEL_SKEW_MM, break_lines, crease_lines, segments
 from wirecut.geometry.frames import DirectionFrame, rigid
 from wirecut.geometry.per_target import PerTarget
 from wirecut.geometry.plan_shapes import triangle_polygons
@@ -677,6 +677,21 @@ def _fit(
         more["skew_hint"] = skew_hint
     if ridges is not None and len(ridges):  # sweep coordinates: machine x less the shift
         more["knots_at"] = np.asarray(ridges, float) + float(transform[0, 3])
+    if ridges is not None:
+        # creases along the wire but not parallel to it, each followed by a skewed ruling
+        # (those parallel to it are the ridges above)
+        # as long along the sweep as the strip's pieces will be (``sweep_cuts``)
+        margin = job.pieces.sweep_margin_mm
+        extent = block.size_mm[0] - 2.0 * margin
+        room = sweep_limit(job, block.size_mm[1]) - 2.0 * margin
+        parts = max(1, math.ceil(extent / room - 1e-9)) if room > 0 else 1
+        steep = job.machine.drivable_slope(extent / parts + 2.0 * margin)
+        x_mid, skew = crease_lines(
+            target, transform, block.z_mm[0], block.z_mm[1], region, max_slope=steep
+        )
+        oblique = np.abs(skew) > PARALLEL_SKEW_MM
+        if oblique.any():
+            more["crease_lines"] = (x_mid[oblique], skew[oblique])
     try:
         return fitter(
             samples, block.z_mm[0], block.z_mm[1], transform, job.tolerance, x_range=block.x_mm,

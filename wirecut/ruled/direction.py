@@ -40,7 +40,14 @@ import numpy as np
 
 from wirecut.config import JobProfile, MoldSide, ToleranceSpec
 from wirecut.errors import JobError
-from wirecut.geometry.creases import break_lines, crease_edges, nearest_gap, segments
+from wirecut.geometry.creases import (
+    PARALLEL_SKEW_MM,
+    break_lines,
+    crease_edges,
+    crease_lines,
+    nearest_gap,
+    segments,
+)
 from wirecut.geometry.frames import DirectionFrame, rigid, to_plan
 from wirecut.geometry.vectors import cross
 from wirecut.ruled.fit import fit_cut
@@ -255,6 +262,7 @@ def _score(
     width_hint: float = math.inf,
     lines: np.ndarray | None = None,
     ridges: np.ndarray | None = None,
+    creased: tuple[Any, np.ndarray] | None = None,
 ) -> tuple[float, float, int, int]:
     """(feasible area share, max |deviation| mm, strips, estimated pieces) of strips along the
     wire, at the trial width: the usable span, narrowed to ``width_hint`` (the width the
@@ -262,7 +270,9 @@ def _score(
     coordinates, mm: :func:`wirecut.geometry.creases.break_lines`) the strips are laid out
     between them, as the split will, and the samples on a line (a step's wall, the crease
     itself) are left out. ``ridges`` (machine x, mm) are the creases along the wire, where
-    the fits put a knot as the split's do (``knots_at`` of :func:`fit_cut`)."""
+    the fits put a knot as the split's do (``knots_at`` of :func:`fit_cut`). ``creased`` is
+    (target, the frame's rotation): each trial strip's oblique creases along the wire are then
+    followed by skewed rulings, as the split's fits do (``crease_lines`` of :func:`fit_cut`)."""
     z = samples.points[:, 2]
     z0, z1 = float(z.min()), float(z.max())
     span = max(z1 - z0, 1e-6)
@@ -286,10 +296,23 @@ def _score(
         part = samples.subset(sel)
         if (~part.undercut).sum() < 12:
             continue
+        oblique = None
+        if creased is not None:
+            x = part.points[:, 0]
+            reach = float(x.max() - x.min())
+            m = job.machine
+            longest = m.travel_x_mm[1] - m.travel_x_mm[0] - 2.0 * m.home_clearance_mm
+            # the strip's pieces along the sweep, as estimated below
+            steep = m.drivable_slope(reach / max(math.ceil(reach / max(longest, 1.0)), 1))
+            x_mid, skew = crease_lines(
+                creased[0], rigid(creased[1], np.zeros(3)), a, b, max_slope=steep
+            )
+            keep = np.abs(skew) > PARALLEL_SKEW_MM
+            oblique = (x_mid[keep], skew[keep]) if keep.any() else None
         try:
             fit = fit_cut(
                 part, a, b, np.eye(4), fit_tolerance(job), correspondence=False,
-                knots_at=ridges,
+                knots_at=ridges, crease_lines=oblique,
             )  # fmt: skip
         except JobError:
             continue
@@ -355,7 +378,8 @@ def search_direction(
             # the creases along the wire, at machine x (the samples' frame has no shift)
             ridges = break_lines(target, to_plan(frame.rotation[0][None, :], up)[0], least)
         hint = predicted_width_mm(analysis, frame.wire_part, job, skip)
-        return frame, hint, _score(base.transformed(rel), job, hint, lines, ridges)
+        creases = (target, frame.rotation) if creased else None
+        return frame, hint, _score(base.transformed(rel), job, hint, lines, ridges, creases)
 
     rows = []
     results = pmap(scored, [angle for angle, _ in cands], meanwhile=meanwhile)

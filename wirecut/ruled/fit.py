@@ -52,6 +52,7 @@ from wirecut.ruled.minimax import cells, equal_error
 from wirecut.ruled.model import RuledCut
 from wirecut.ruled.sampling import TargetSamples
 from wirecut.ruled.skew import (
+    CROSSING,
     MAX_SLOPE,
     end_bounds,
     knot_gaps,
@@ -157,7 +158,8 @@ def pinned_knots(knots: np.ndarray, at: np.ndarray) -> np.ndarray:
         i = int(round((p - lo) / dx))
         on = np.abs(out - p) <= eps
         if on.any() or any(abs(q - p) <= eps for q in added):
-            taken |= on  # a knot there already: it stays
+            taken |= on  # a knot there already: it stays, exactly there
+            out[on] = p
             continue
         if 1 <= i <= k - 2 and not taken[i] and out[i - 1] + 0.5 * dx <= p <= out[i + 1] - 0.5 * dx:
             out[i], taken[i] = p, True
@@ -225,6 +227,7 @@ def fit_cut(
     enough_mm: float | None = None,
     skew_hint: tuple[np.ndarray, np.ndarray] | None = None,
     knots_at: np.ndarray | None = None,
+    crease_lines: tuple[np.ndarray, np.ndarray] | None = None,
 ) -> RuledFit:
     """Fit a ruled cut between the faces ``z_left < z_right`` (mm, machine) to ``samples``.
 
@@ -260,6 +263,13 @@ def fit_cut(
         foot of a wall across the sweep): the nearest knot of the even spacing is moved onto
         each (:func:`pinned_knots`), so that the section's corner there is a knot of the cut
         instead of being cut off by a chord.
+    crease_lines : ((j,), (j,)) float, mm, optional
+        Creases that run along the wire obliquely (:func:`wirecut.geometry.creases.crease_lines`):
+        machine x where each crosses the mid-plane, and its skew (x at the right face less x
+        at the left). A knot goes on each, as for ``knots_at``, and its ruling keeps that
+        skew, so the cut follows the crease from face to face; the rulings between take
+        skews that change by at most ``skew.CROSSING`` of their gaps. Lines whose skews no
+        such cut can hold together (two creases meeting inside the block) are left out.
 
     Returns
     -------
@@ -307,11 +317,37 @@ def fit_cut(
     k = max(int(math.ceil((x1 - x0) / h)) + 1, 2)
     knots = np.linspace(x0, x1, k)
     dx = float(knots[1] - knots[0])
-    if knots_at is not None and len(knots_at):
-        knots = pinned_knots(knots, np.asarray(knots_at, float))
+    fixed_x = fixed_s = np.zeros(0)
+    if crease_lines is not None and len(crease_lines[0]):
+        fixed_x, fixed_s = (np.asarray(v, float) for v in crease_lines)
+        inside = (fixed_x > knots[0]) & (fixed_x < knots[-1])
+        inside &= np.abs(fixed_s) <= MAX_SLOPE * width + 1e-9
+        fixed_x, fixed_s = fixed_x[inside], fixed_s[inside]
+    pins = [np.asarray(knots_at, float)] if knots_at is not None and len(knots_at) else []
+    if len(fixed_x):
+        pins.append(fixed_x)
+    if pins:
+        knots = pinned_knots(knots, np.concatenate(pins))
         k = len(knots)
     h = dx
     gaps = knot_gaps(knots)  # the skew limits between neighbouring rulings
+    # the skews the oblique creases fix (others free): the plainest cut that holds them
+    s_lo, s_hi = np.full(k, -np.inf), np.full(k, np.inf)
+    if len(fixed_x):
+        at = np.abs(knots[None, :] - fixed_x[:, None]).argmin(axis=1)
+        hit = np.abs(knots[at] - fixed_x) <= 1e-6 * max(dx, 1e-9)
+        s_lo[at[hit]] = s_hi[at[hit]] = fixed_s[hit]
+    s_base = np.zeros(k)
+    if np.isfinite(s_lo).any():
+        s_base = monotone_seed(np.zeros(k), gaps, s_lo, s_hi)
+        limit = CROSSING * np.broadcast_to(np.asarray(gaps, float), (k - 1,)) + 1e-9
+        pinned = np.isfinite(s_lo)
+        if np.any(np.abs(np.diff(s_base)) > limit) or np.any(
+            np.abs(s_base[pinned] - s_lo[pinned]) > 1e-9
+        ):
+            # creases whose skews no cut without crossing rulings holds together
+            s_lo, s_hi = np.full(k, -np.inf), np.full(k, np.inf)
+            s_base = np.zeros(k)
 
     ny_t = np.clip(samples.normals[use, 1], 0.05, 1.0)
     c = np.sqrt(np.maximum(samples.weights[use], 0.05 * max(samples.weights[use].mean(), 1e-12)))
@@ -343,9 +379,9 @@ def fit_cut(
         return cut, eps, rounds, y1
 
     s_zero = np.zeros(k)
-    cut, eps, iterations, _ = linear_fit(s_zero, None)
+    cut, eps, iterations, _ = linear_fit(s_base, None)
     report = signed_deviation(cut, samples, tolerance)
-    skewed = False
+    skewed = bool(np.any(s_base != 0.0))
     enough = _GOOD_ENOUGH * tol if enough_mm is None else float(enough_mm)
     if correspondence and report.max_abs_mm > enough:
         hi, lo = skew_seeds(x, yt, z, knots, h, z_mid, half)
@@ -353,6 +389,8 @@ def fit_cut(
         end_lb, end_ub = end_bounds(x, t_all, knots)
         reach = MAX_SLOPE * width
         end_lb, end_ub = np.maximum(end_lb, -reach), np.minimum(end_ub, reach)
+        pinned = np.isfinite(s_lo)
+        end_lb[pinned], end_ub[pinned] = s_lo[pinned], s_hi[pinned]
         nrm = samples.normals[use]
         grad = -nrm[:, [0, 2]] / np.maximum(nrm[:, 1:2], 0.05)
         scan = skew_scan(x, yt, z, grad, knots, z_left, z_right, reach)
@@ -361,7 +399,7 @@ def fit_cut(
             sub = np.sort(np.random.default_rng(0).choice(len(x), _MAX_LSQ_SAMPLES, replace=False))
         xs_, ys_, zs_, cs_ = x[sub], yt[sub], z[sub], c[sub]
         tried = []
-        for m in (s_zero, scan / width, hi, lo):
+        for m in (s_base / width, scan / width, hi, lo):
             s = monotone_seed(m * width, gaps, end_lb, end_ub)
             flat = ruled_cut(knots - s / 2, knots + s / 2, s_zero, s_zero, z_left, z_right, None)
             a, _ = _design(flat, xs_, zs_)
