@@ -155,3 +155,42 @@ def test_a_tapered_half_column_is_cut_along_its_generators():
     # every direction whose curvature needs strips under the minimum width ranks last
     flags = [r["below_min_width"] for r in choice.table]
     assert any(flags) and flags == sorted(flags)
+
+
+def test_seed_peaks_are_refined_off_the_bin_centres():
+    from wirecut.ruled.direction import _peaks
+
+    rng = np.random.default_rng(5)
+    # most directions at exactly 135 deg (a bin edge of the 5-degree histogram), a few noisy
+    exact = np.full(900, np.radians(135.0))
+    noisy = np.radians(135.0 + rng.normal(0.0, 3.0, 100))
+    got = _peaks(np.concatenate([exact, noisy]), np.ones(1000), count=1)
+    assert got and np.degrees(got[0]) == pytest.approx(135.0, abs=1e-9)  # not 132.5 or 137.5
+    # an axial angle: 179.9 and 0.1 deg are one direction, refined across the wrap to 0
+    wrap = np.radians(np.r_[np.full(50, 179.9), np.full(50, 0.1), 0.0])
+    got = _peaks(wrap, np.ones(101), count=1)
+    assert abs((np.degrees(got[0]) + 90.0) % 180.0 - 90.0) < 0.2
+
+
+def test_a_hyperbolic_paraboloid_is_cut_along_a_ruling_family():
+    # z = (x^2 - y^2) / c is doubly ruled along x = +-y (do Carmo 3-5): the asymptotic
+    # directions of every point are those two; the wire must lie along one of them
+    import sys
+    from pathlib import Path
+
+    sys.path.insert(0, str(Path(__file__).parents[1] / "pieces"))
+    from shapes_pieces import height_target
+
+    from wirecut.config import default_job
+    from wirecut.geometry.cuttability import analyse_surface
+
+    job = default_job()
+    target = height_target(
+        np.arange(0.0, 1200.1, 30.0),
+        np.arange(0.0, 1000.1, 30.0),
+        lambda x, y: ((x - 600.0) ** 2 - (y - 500.0) ** 2) / 8000.0,
+        job,
+    )
+    choice = search_direction(target, analyse_surface(target, job), job)
+    got = np.degrees(choice.best.angle_rad) % 180.0
+    assert min(abs(got - 45.0), abs(got - 135.0)) < 1e-6
