@@ -113,6 +113,11 @@ def test_a_rest_before_a_break_moves_the_cut_back() -> None:
     # at the footprint's edge the last strip is widened instead (nothing lies beyond it)
     edge = greedy_strips(0.0, 600.0, lambda a, b: b - a <= 290.0, 1000.0, 100.0, 10.0)
     assert edge.cuts[-1] > 600.0
+    # ... unless the rest is a sliver narrower than a grid step: 290 + 290 + 4 mm of surface
+    # would make a 100 mm blank around a 4 mm ribbon; the cut before it moves back instead
+    sliver = greedy_strips(0.0, 584.0, lambda a, b: b - a <= 290.0, 1000.0, 100.0, 10.0)
+    assert np.allclose(sliver.cuts, [0.0, 290.0, 484.0, 584.0])
+    assert sliver.feasible.all()
 
 
 @pytest.fixture(scope="module")

@@ -161,6 +161,8 @@ def greedy_strips(
         :mod:`wirecut.geometry.creases`), not the footprint's edge: a rest narrower than the
         minimum width is then made up by moving the cut before it back (the strip before
         stays feasible, being narrower), instead of widening the last strip beyond ``hi``.
+        At the footprint's edge the last strip is widened, except past a rest narrower than
+        one grid step (a sliver), which moves the cut back too.
 
     Returns
     -------
@@ -247,7 +249,10 @@ def greedy_strips(
         rest = hi - a
         back = hi - min_width_mm
         if (
-            end_is_cut
+            # at a break line; or a sliver narrower than a grid step past the last cut (an
+            # extent a hair over a whole number of strips), which would make a blank of the
+            # minimum width around a ribbon of surface
+            (end_is_cut or rest < step - 1e-9)
             and rest < min_width_mm - 1e-9
             and len(cuts) >= 2
             and back - cuts[-2] >= min_width_mm - 1e-9
