@@ -374,12 +374,12 @@ def test_both_corners_of_a_narrow_wall_get_a_knot(correspondence) -> None:
     assert fit.cut.is_monotone()
 
 
-def _oblique_fold(deg: float, job):
+def _oblique_fold(deg: float, job, rows: int = 21):
     # two planes meeting at a crease 5 deg off y (the wire), the mesh's edges along it (the
     # grid sheared: its lines u = const run along the crease), as a CAD export of facets is
     sin, cos = math.sin(math.radians(deg)), math.cos(math.radians(deg))
     us = np.linspace(0.0, 600.0, 61)
-    vs = np.linspace(0.0, 400.0, 21)
+    vs = np.linspace(0.0, 400.0, rows)
     uu, vv = np.meshgrid(us, vs, indexing="ij")
     x = uu + sin / cos * (vv - 200.0)
     z = 300.0 - 0.5 * np.abs(uu - 300.0)
@@ -412,6 +412,13 @@ def test_an_oblique_crease_is_one_straight_line_with_its_skew() -> None:
     assert np.sign(skew[0]) == np.sign(along.rotation[0, 0])
     # a limit on the slope the towers can follow leaves it out
     assert len(crease_lines(target, transform, z_l, z_r, max_slope=0.5 * slope)[0]) == 0
+    # long facets, as a CAD export writes them: a strip y in [120, 180] lies inside one
+    # 200 mm crease edge (y 0-200, its midpoint outside the strip), which still gives the line
+    long_facets, _ = _oblique_fold(5.0, job, rows=3)
+    x_long, skew_long = crease_lines(long_facets, transform, 720.0, 780.0)
+    mid_long = (along.rotation @ np.array([300.0 + slope * (150.0 - 200.0), 150.0, 300.0]))[0]
+    assert x_long == pytest.approx([mid_long + 40.0], abs=1e-6)
+    assert abs(skew_long[0]) == pytest.approx(slope * 60.0, rel=1e-9)
 
 
 def test_a_fit_follows_an_oblique_crease_with_a_skewed_ruling() -> None:

@@ -197,12 +197,13 @@ def crease_lines(
     hipped roof's hip, a fold not parallel to the others, a ridge that curves in plan) is no
     break line (it crosses no cut across the wire) and not a vertical ruling either: the
     ruling that follows it is skewed, from where it crosses the left face to where it crosses
-    the right. The crease edges of the target that lie in the strip (their machine z between
-    the faces and, when ``region`` (a plan polygon) is given, their plan midpoint inside it)
+    the right. The crease edges of the target that cross the strip (the part of each between
+    the faces, and, when ``region`` (a plan polygon) is given, the middle of that part inside
+    it; each counts with the length of that part along the wire)
     are gathered into lines by where they cross the two faces (within
     ``_LINE_GATHER_SHARE`` of the width); a line shorter along the wire than
     ``_LINE_LEAST_SHARE`` of the width is left out; each kept line is the length-weighted
-    least-squares line through its edges' midpoints.
+    least-squares line through its edges' ends.
 
     Parameters
     ----------
@@ -231,21 +232,28 @@ def crease_lines(
     p = v[ends[:, 0]] @ m[:3, :3].T + m[:3, 3]
     q = v[ends[:, 1]] @ m[:3, :3].T + m[:3, 3]
     dz, dx = q[:, 2] - p[:, 2], q[:, 0] - p[:, 0]
-    cz = 0.5 * (p[:, 2] + q[:, 2])
-    keep = (np.abs(dz) > 1e-9) & (np.abs(dx) <= max_slope * np.abs(dz))
-    keep &= (cz >= z_left) & (cz <= z_right)
-    if region is not None and keep.any():
+    # the part of each edge between the faces (a long edge of a CAD facet may cross the strip)
+    z_lo = np.maximum(np.minimum(p[:, 2], q[:, 2]), z_left)
+    z_hi = np.minimum(np.maximum(p[:, 2], q[:, 2]), z_right)
+    keep = (np.abs(dz) > 1e-9) & (np.abs(dx) <= max_slope * np.abs(dz)) & (z_hi > z_lo)
+    if not keep.any():
+        return empty
+    # the middle of that part, as a share of the edge from p
+    u = np.where(keep, (0.5 * (z_lo + z_hi) - p[:, 2]) / np.where(keep, dz, 1.0), 0.5)
+    if region is not None:
         import shapely
 
         up = np.asarray(target.up, float)
-        mid = to_plan(0.5 * (v[ends[keep, 0]] + v[ends[keep, 1]]), up)
+        a3, b3 = v[ends[keep, 0]], v[ends[keep, 1]]
+        mid = to_plan(a3 + u[keep, None] * (b3 - a3), up)
         keep[np.flatnonzero(keep)] = shapely.contains_xy(region, mid[:, 0], mid[:, 1])
     if not keep.any():
         return empty
     slope = dx[keep] / dz[keep]
-    cx = 0.5 * (p[keep, 0] + q[keep, 0])
-    zc = cz[keep]
-    length = np.abs(dz[keep])
+    p_x, p_z, q_x, q_z = p[keep, 0], p[keep, 2], q[keep, 0], q[keep, 2]
+    zc = 0.5 * (z_lo[keep] + z_hi[keep])
+    cx = p_x + u[keep] * dx[keep]
+    length = z_hi[keep] - z_lo[keep]
     xl = cx + slope * (z_left - zc)
     xr = cx + slope * (z_right - zc)
     gather = _LINE_GATHER_SHARE * width
@@ -264,15 +272,11 @@ def crease_lines(
         w = length[members]
         if w.sum() < _LINE_LEAST_SHARE * width:
             continue
-        # x = a + b (z - z_mid), weighted least squares through the edges' midpoints
-        zz = zc[members] - z_mid
-        sw, swz, swzz = w.sum(), (w * zz).sum(), (w * zz * zz).sum()
-        swx, swxz = (w * cx[members]).sum(), (w * cx[members] * zz).sum()
-        det = sw * swzz - swz * swz
-        if det <= 1e-12 * max(sw * swzz, 1e-300):
-            continue  # all at one z: no direction to follow
-        b = (sw * swxz - swz * swx) / det
-        a = (swx - b * swz) / sw
+        # x = a + b (z - z_mid), weighted least squares through the edges' ends (so that
+        # one long edge, a CAD facet's, is a line too), each end weighted by half its edge
+        ends_z = np.concatenate([p_z[members], q_z[members]]) - z_mid
+        ends_x = np.concatenate([p_x[members], q_x[members]])
+        b, a = np.polyfit(ends_z, ends_x, 1, w=np.sqrt(np.concatenate([w, w]) / 2.0))
         if abs(b) > max_slope:
             continue
         out_x.append(float(a))
