@@ -184,3 +184,32 @@ def test_reader_agrees_with_the_interpreter_on_hand_written_text(name, interpret
     assert [m["kind"] for m in result["moves"]] == kinds
     dwells = ours.duration_s[ours.ops == Op.DWELL]
     np.testing.assert_allclose([d["seconds"] for d in result["dwells"]], dwells)
+
+
+def test_a_program_on_a_riser_parses_and_stays_in_travel(interpreter, tmp_path):
+    # a wire falling steeply along the blank (toolpath tests): lifted 55 mm on a riser, its
+    # header names the riser, and the interpreter reads every position where the writer put
+    # it, the lowest tower back inside the Y/V travel
+    import sys
+    from pathlib import Path
+
+    sys.path.insert(0, str(Path(__file__).parents[1] / "toolpath"))
+    from toolpath_shapes import make_piece
+
+    from wirecut.toolpath.build import build_program
+
+    job = job_for(Dialect.XYUV_INVERSE_TIME)
+    left = np.array([[200.0, 250.0], [800.0, 250.0]])
+    right = np.array([[200.0, 20.0], [800.0, 20.0]])
+    piece = make_piece(left, right, (200.0, 800.0), (0.0, 300.0), (300.0, 1300.0))
+    program, report, _ = build_program(piece, job, riser=True)
+    assert program is not None and report.riser_mm > 0
+    text = write_gcode(program, job)
+    assert f"(riser under the blank mm: {report.riser_mm:.0f} [foam only" in text
+    result = interpreter(text, tmp_path)
+    _check_parse(result)
+    kinds, towers, _ = _expected_moves(program, job)
+    got = np.array([m["xyzabcuvw_mm"] for m in result["moves"]])
+    np.testing.assert_allclose(got[:, XYUV_COLUMNS], towers, atol=POS_TOL_MM)
+    low = job.machine.travel_y_mm[0]
+    assert got[1:, [1, 7]].min() >= low - POS_TOL_MM
