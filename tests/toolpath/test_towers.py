@@ -137,9 +137,9 @@ def test_travel_check_riser_for_towers_below_the_travel():
     assert both.fixable and both.shift_x_mm == pytest.approx(20.0) and both.riser_mm == 20.0
 
 
-def _tilted_piece(right_y: float, block_y=(0.0, 300.0)):
-    # the wire falls from y = 250 at the left face (z 300) to right_y at the right (z 1300)
-    left = np.array([[200.0, 250.0], [800.0, 250.0]])
+def _tilted_piece(right_y: float, block_y=(0.0, 300.0), left_y: float = 250.0):
+    # the wire falls from left_y at the left face (z 300) to right_y at the right (z 1300)
+    left = np.array([[200.0, left_y], [800.0, left_y]])
     right = np.array([[200.0, right_y], [800.0, right_y]])
     return make_piece(left, right, (200.0, 800.0), block_y, (300.0, 1300.0))
 
@@ -164,13 +164,7 @@ def test_steep_wire_gets_a_riser_only_when_allowed():
 def test_wire_below_a_raised_bed_is_refused_or_lifted():
     # bed 200: the cut runs from 300 at the left face to 150 at the right, 50 mm below the
     # bed there, while the towers stay inside the travel (150 - 0.15 * 300 = 105 >= 0)
-    piece = _tilted_piece(150.0, (200.0, 500.0))
-    piece = dataclasses.replace(
-        piece,
-        fit=type(piece.fit)(
-            dataclasses.replace(piece.fit.cut, left=piece.fit.cut.left + [0.0, 50.0])
-        ),
-    )
+    piece = _tilted_piece(150.0, (200.0, 500.0), left_y=300.0)
     program, _, findings = build_program(piece, RAISED)
     assert program is None
     bed = [f for f in findings if f.code == "below-bed"]
@@ -182,15 +176,10 @@ def test_wire_below_a_raised_bed_is_refused_or_lifted():
 
 
 def test_a_riser_that_would_lift_the_towers_over_the_top_is_named():
-    # the falling wire of the raised-bed case, its left face near the top of the travel:
-    # the 55 mm riser would take the towers from 780 + 0.3 * 150... over 800 (by hand)
-    piece = _tilted_piece(150.0, (200.0, 760.0))
-    piece = dataclasses.replace(
-        piece,
-        fit=type(piece.fit)(
-            dataclasses.replace(piece.fit.cut, left=piece.fit.cut.left + [0.0, 480.0])
-        ),
-    )
+    # the raised bed again, the wire from 600 at the left face to 150 at the right (50 mm
+    # below the bed), in a blank 760 high: the approach over its top stands at 760 + 30 = 790,
+    # inside the 800 travel, but the 55 mm riser would lift it to 845 (by hand)
+    piece = _tilted_piece(150.0, (200.0, 760.0), left_y=600.0)
     program, report, findings = build_program(piece, RAISED, riser=True)
     assert program is None and report.riser_mm == 0.0
     bed = [f for f in findings if f.code == "below-bed"]

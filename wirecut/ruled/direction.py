@@ -314,6 +314,8 @@ def _score(
     n = len(edges) - 1
     total = samples.area_mm2
     feasible, worst = 0.0, 0.0
+    m = job.machine
+    sweep_max = m.travel_x_mm[1] - m.travel_x_mm[0] - 2.0 * m.home_clearance_mm
     for i, (a, b) in enumerate(zip(edges[:-1], edges[1:], strict=True)):
         last = i == n - 1
         sel = (z >= a) & ((z <= b) if last else (z < b))  # each sample in one strip
@@ -324,10 +326,8 @@ def _score(
         if creased is not None:
             x = part.points[:, 0]
             reach = float(x.max() - x.min())
-            m = job.machine
-            longest = m.travel_x_mm[1] - m.travel_x_mm[0] - 2.0 * m.home_clearance_mm
-            # the strip's pieces along the sweep, as estimated below
-            steep = m.drivable_slope(reach / max(math.ceil(reach / max(longest, 1.0)), 1))
+            # as long along the sweep as the strip's pieces, as estimated below
+            steep = m.drivable_slope(reach / max(math.ceil(reach / max(sweep_max, 1.0)), 1))
             x_mid, skew = crease_lines(
                 creased[0], rigid(creased[1], np.zeros(3)), a, b, max_slope=steep
             )
@@ -343,8 +343,6 @@ def _score(
         r = fit.report
         feasible += float(part.weights[r.within].sum())
         worst = max(worst, r.max_abs_mm)
-    m = job.machine
-    sweep_max = m.travel_x_mm[1] - m.travel_x_mm[0] - 2.0 * m.home_clearance_mm
     x = samples.points[:, 0]
     along = max(int(math.ceil((float(x.max()) - float(x.min())) / max(sweep_max, 1.0))), 1)
     share = min(feasible / total, 1.0) if total > 0 else 0.0

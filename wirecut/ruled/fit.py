@@ -92,7 +92,7 @@ class RuledFit:
     ruling_spacing_mm : float
         Knot spacing H along the sweep, mm.
     skewed : bool
-        True when the correspondence step (3) was kept.
+        True when the correspondence step (3) was kept, or oblique creases fixed some skews.
     samples : TargetSamples or None
         The samples the report refers to (same order as ``report.signed``).
     """
@@ -168,6 +168,29 @@ def pinned_knots(knots: np.ndarray, at: np.ndarray) -> np.ndarray:
     if added:
         out = np.sort(np.concatenate([out, added]))
     return out
+
+
+def _fixed_skews(knots, gaps, at_x, skew, eps):
+    """(lower, upper, start) skews (K,) mm for knots some of which lie on oblique creases
+    (``at_x`` (j,) mm, within ``eps`` of a knot) with the creases' ``skew`` (j,) mm: those
+    knots' bounds are their skew, the others' unbounded, and the start is the plainest cut
+    that holds them (:func:`wirecut.ruled.skew.monotone_seed` from all zeros). Creases whose
+    skews no cut without crossing rulings holds together give no bounds and a zero start."""
+    k = len(knots)
+    lo, hi, free = np.full(k, -np.inf), np.full(k, np.inf), np.zeros(k)
+    if len(at_x) == 0:
+        return lo, hi, free
+    at = np.abs(knots[None, :] - at_x[:, None]).argmin(axis=1)
+    hit = np.abs(knots[at] - at_x) <= eps
+    lo[at[hit]] = hi[at[hit]] = skew[hit]
+    if not hit.any():
+        return lo, hi, free
+    start = monotone_seed(np.zeros(k), gaps, lo, hi)
+    limit = CROSSING * np.broadcast_to(np.asarray(gaps, float), (k - 1,)) + 1e-9
+    pinned = np.isfinite(lo)
+    if np.any(np.abs(np.diff(start)) > limit) or np.any(np.abs(start - lo)[pinned] > 1e-9):
+        return np.full(k, -np.inf), np.full(k, np.inf), free
+    return lo, hi, start
 
 
 def ruling_spacing_for(tolerance_mm: float, sweep_curvature_per_mm: float) -> float:
@@ -260,9 +283,9 @@ def fit_cut(
         better.
     knots_at : (j,) float, mm, optional
         Machine x of creases of the target that run along the wire (a ridge, a valley, the
-        foot of a wall across the sweep): the nearest knot of the even spacing is moved onto
-        each (:func:`pinned_knots`), so that the section's corner there is a knot of the cut
-        instead of being cut off by a chord.
+        foot of a wall across the sweep): a knot is put on each (:func:`pinned_knots`), so
+        that the section's corner there is a knot of the cut instead of being cut off by a
+        chord.
     crease_lines : ((j,), (j,)) float, mm, optional
         Creases that run along the wire obliquely (:func:`wirecut.geometry.creases.crease_lines`):
         machine x where each crosses the mid-plane, and its skew (x at the right face less x
@@ -331,23 +354,7 @@ def fit_cut(
         k = len(knots)
     h = dx
     gaps = knot_gaps(knots)  # the skew limits between neighbouring rulings
-    # the skews the oblique creases fix (others free): the plainest cut that holds them
-    s_lo, s_hi = np.full(k, -np.inf), np.full(k, np.inf)
-    if len(fixed_x):
-        at = np.abs(knots[None, :] - fixed_x[:, None]).argmin(axis=1)
-        hit = np.abs(knots[at] - fixed_x) <= 1e-6 * max(dx, 1e-9)
-        s_lo[at[hit]] = s_hi[at[hit]] = fixed_s[hit]
-    s_base = np.zeros(k)
-    if np.isfinite(s_lo).any():
-        s_base = monotone_seed(np.zeros(k), gaps, s_lo, s_hi)
-        limit = CROSSING * np.broadcast_to(np.asarray(gaps, float), (k - 1,)) + 1e-9
-        pinned = np.isfinite(s_lo)
-        if np.any(np.abs(np.diff(s_base)) > limit) or np.any(
-            np.abs(s_base[pinned] - s_lo[pinned]) > 1e-9
-        ):
-            # creases whose skews no cut without crossing rulings holds together
-            s_lo, s_hi = np.full(k, -np.inf), np.full(k, np.inf)
-            s_base = np.zeros(k)
+    s_lo, s_hi, s_base = _fixed_skews(knots, gaps, fixed_x, fixed_s, 1e-6 * max(dx, 1e-9))
 
     ny_t = np.clip(samples.normals[use, 1], 0.05, 1.0)
     c = np.sqrt(np.maximum(samples.weights[use], 0.05 * max(samples.weights[use].mean(), 1e-12)))
