@@ -227,6 +227,12 @@ def test_pinned_knots_move_the_nearest_knot_or_add_one() -> None:
     wall = pinned_knots(knots, np.array([48.0, 52.0]))
     assert 48.0 in wall and 52.0 in wall and len(wall) == 12
     assert np.all(np.diff(wall) > 0)
+    # many short creases within one spacing (a noisy mesh's): one knot moved, one added
+    noise = pinned_knots(knots, np.array([41.0, 43.0, 45.0, 47.0, 49.0]))
+    assert len(noise) == 12
+    # ... except the oblique creases' positions, which always get theirs
+    kept = pinned_knots(knots, np.array([41.0, 43.0, 45.0]), must=np.array([47.0, 49.0]))
+    assert 47.0 in kept and 49.0 in kept
 
 
 def test_skew_limits_follow_the_gaps_of_pinned_knots() -> None:

@@ -257,18 +257,23 @@ def crease_lines(
     xl = cx + slope * (z_left - zc)
     xr = cx + slope * (z_right - zc)
     gather = _LINE_GATHER_SHARE * width
-    order = np.argsort(0.5 * (xl + xr), kind="stable")
+    centre = 0.5 * (xl + xr)
+    order = np.argsort(centre, kind="stable")
+    ahead = np.searchsorted(centre[order], centre[order] + gather, side="right")
     used = np.zeros(len(order), bool)
     z_mid = 0.5 * (z_left + z_right)
     out_x, out_s = [], []
     for n, i in enumerate(order):
         if used[n]:
             continue
-        rest = order[n:]
-        near = (~used[n:]) & (np.abs(xl[rest] - xl[i]) <= gather)
+        # every edge before n is in a line already; one within the gather of edge i at both
+        # faces lies within it at the mid-plane too, so the window ahead holds them all
+        window = slice(n, int(ahead[n]))
+        rest = order[window]
+        near = (~used[window]) & (np.abs(xl[rest] - xl[i]) <= gather)
         near &= np.abs(xr[rest] - xr[i]) <= gather
         members = rest[near]
-        used[n:][near] = True
+        used[window][near] = True
         w = length[members]
         if w.sum() < _LINE_LEAST_SHARE * width:
             continue

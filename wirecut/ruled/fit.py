@@ -133,11 +133,14 @@ def estimate_sweep_curvature(points: np.ndarray, window_mm: float | None = None)
     return float(np.percentile(k, 95))
 
 
-def pinned_knots(knots: np.ndarray, at: np.ndarray) -> np.ndarray:
+def pinned_knots(knots: np.ndarray, at: np.ndarray, must: np.ndarray | None = None) -> np.ndarray:
     """Evenly spaced ``knots`` (k,) mm with a knot on each position of ``at`` (mm) that lies
     strictly inside them: the nearest inner knot moved onto it while that keeps both its gaps
-    at least half the spacing and no other position has taken it, else a knot added there
-    (the two corners of a step's wall, 10 mm apart between knots 28 mm apart, each get one).
+    at least half the spacing and no other position has taken it, else a knot added there,
+    one at most per gap of the spacing (the two corners of a step's wall, 10 mm apart between
+    knots 28 mm apart, each get one; the many short creases of a noisy mesh do not multiply
+    the knots). The positions in ``must`` come first and always get a knot (the oblique
+    creases, whose rulings' skews are fixed there).
     A section with a corner (the target's crease) between two knots is cut off by their
     chord, by about the corner's offset from the nearer knot times the slope change over two;
     on the corner it is followed exactly. The result may hold more knots than ``knots``, and
@@ -151,22 +154,29 @@ def pinned_knots(knots: np.ndarray, at: np.ndarray) -> np.ndarray:
     lo, hi = float(out[0]), float(out[-1])
     eps = 1e-6 * dx
     taken = np.zeros(k, bool)
-    added = []
-    for p in np.unique(np.asarray(at, float)):
+    added: dict[int, float] = {}  # at most one added knot per gap of the even spacing
+    first = np.unique(np.asarray(must if must is not None else [], float))
+    rest = np.setdiff1d(np.unique(np.asarray(at, float)), first)
+    extra: list[float] = []  # the must-positions beyond one per gap
+    for n, p in enumerate(np.concatenate([first, rest])):
         if not lo + eps < p < hi - eps:
             continue
         i = int(round((p - lo) / dx))
-        on = np.abs(out - p) <= eps
-        if on.any() or any(abs(q - p) <= eps for q in added):
-            taken |= on  # a knot there already: it stays, exactly there
-            out[on] = p
+        near = [j for j in (i - 1, i, i + 1) if 0 <= j < k and abs(out[j] - p) <= eps]
+        if near:  # a knot there already: it stays, exactly there
+            taken[near] = True
+            out[near] = p
             continue
         if 1 <= i <= k - 2 and not taken[i] and out[i - 1] + 0.5 * dx <= p <= out[i + 1] - 0.5 * dx:
             out[i], taken[i] = p, True
-        else:
-            added.append(float(p))
-    if added:
-        out = np.sort(np.concatenate([out, added]))
+            continue
+        gap = min(int((p - lo) // dx), k - 2)
+        if gap not in added:  # more creases within one spacing (a noisy mesh's) stay off
+            added[gap] = float(p)
+        elif n < len(first) and all(abs(q - p) > eps for q in extra):
+            extra.append(float(p))
+    if added or extra:
+        out = np.sort(np.concatenate([out, list(added.values()), extra]))
     return out
 
 
@@ -346,11 +356,9 @@ def fit_cut(
         inside = (fixed_x > knots[0]) & (fixed_x < knots[-1])
         inside &= np.abs(fixed_s) <= MAX_SLOPE * width + 1e-9
         fixed_x, fixed_s = fixed_x[inside], fixed_s[inside]
-    pins = [np.asarray(knots_at, float)] if knots_at is not None and len(knots_at) else []
-    if len(fixed_x):
-        pins.append(fixed_x)
-    if pins:
-        knots = pinned_knots(knots, np.concatenate(pins))
+    ridges = np.asarray(knots_at, float) if knots_at is not None else np.zeros(0)
+    if len(ridges) or len(fixed_x):
+        knots = pinned_knots(knots, ridges, must=fixed_x)
         k = len(knots)
     h = dx
     gaps = knot_gaps(knots)  # the skew limits between neighbouring rulings
