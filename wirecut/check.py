@@ -66,6 +66,8 @@ class CheckResult:
             f"p95 {r['p95']:.0f} mm",
             f"  feasible (reach >= {self.job.pieces.min_width_mm:g} mm, no undercut) "
             f"{s['feasible_area_fraction'] * 100:.1f} %",
+            f"  roughness              {a['roughness_rms_mm']:9.3f} mm RMS "
+            "(scatter about smooth local fits)",
         ] + (
             [
                 f"  creases                {creases / 1000:9.2f} m "
@@ -110,6 +112,7 @@ def run_check(mesh_path: Path, job: JobProfile, units: Units | None = None) -> C
     """Load the mesh and analyse it; findings for low feasibility and undercut."""
     from wirecut.geometry.cuttability import analyse_surface
     from wirecut.geometry.mesh import load_target
+    from wirecut.geometry.roughness import roughness_finding
 
     target, intake = load_target(mesh_path, job, units)
     analysis = analyse_surface(target, job)
@@ -134,6 +137,9 @@ def run_check(mesh_path: Path, job: JobProfile, units: Units | None = None) -> C
                 f"{und * 100:.1f}% of the surface cannot be reached by a wire from the waste side",
             )
         )
+    rough = roughness_finding(analysis.curvature.roughness, job.tolerance.surface_mm)
+    if rough is not None:
+        findings.append(rough)
     return CheckResult(Path(mesh_path), target, analysis, job, tuple(findings))
 
 

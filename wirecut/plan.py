@@ -170,6 +170,7 @@ def make_plan(
     from dataclasses import replace
 
     from wirecut.geometry.cuttability import analyse_surface
+    from wirecut.geometry.roughness import roughness_finding
     from wirecut.pieces.split import prepare_split, split_pieces
     from wirecut.pieces.stock import allocate
     from wirecut.ruled.direction import search_direction
@@ -182,6 +183,9 @@ def make_plan(
     progress("analysis", 0, 1)
     analysis = analyse_surface(target, job)
     progress("analysis", 1, 1)
+    rough = roughness_finding(analysis.curvature.roughness, job.tolerance.surface_mm)
+    if rough is not None:
+        findings.append(rough)
     # the split's plan view does not depend on the direction: built while the search runs
     direction = search_direction(target, analysis, job, meanwhile=lambda: prepare_split(target))
     split = split_pieces(target, analysis, direction, job, progress=progress)

@@ -54,11 +54,13 @@ def test_saddle_is_ruled_with_full_reach(saddle_result):
     assert js["undercut_area_fraction"] == 0.0
 
 
-def test_to_json_has_exactly_the_contract_keys(saddle_result):
+def test_to_json_has_the_contract_keys_and_the_documented_addition(saddle_result):
     _, an = saddle_result
     js = an.to_json()
-    # keys of the "analysis" part in /work/shared/interface.md
+    # keys of the "analysis" part in /work/shared/interface.md, and the one addition
+    # documented in docs/methods-curvature.md (the contract may be extended)
     assert set(js) == {
+        "roughness_rms_mm",
         "target_area_mm2",
         "gaussian_curvature_per_mm2",
         "developable_area_fraction",
@@ -69,6 +71,7 @@ def test_to_json_has_exactly_the_contract_keys(saddle_result):
     }
     assert set(js["gaussian_curvature_per_mm2"]) == {"min", "p05", "median", "p95", "max"}
     assert set(js["wire_reach_mm"]) == {"p05", "median", "p95"}
+    assert 0.0 <= js["roughness_rms_mm"] < 1e-4  # z = x y / c is a quadric: no scatter
     fractions = [
         js[k] for k in js if k.endswith("_area_fraction") and k != "undercut_area_fraction"
     ]

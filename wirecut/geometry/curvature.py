@@ -44,6 +44,7 @@ import numpy as np
 from scipy import sparse
 
 from wirecut.geometry.mesh import TargetSurface
+from wirecut.geometry.roughness import Roughness, mesh_roughness
 from wirecut.geometry.vectors import cross
 
 __all__ = ["Curvature", "vertex_curvature", "angle_defects", "mixed_areas", "tangent_frames"]
@@ -90,6 +91,9 @@ class Curvature:
         defects over the sum of their mixed areas (the discrete Gauss-Bonnet integral, far less
         sensitive to an irregular triangulation than the per-vertex ratio); NaN where the patch
         holds no interior vertex.
+    roughness : Roughness or None
+        The vertices' scatter about smooth local fits on the same 2-rings and frames
+        (:func:`wirecut.geometry.roughness.mesh_roughness`), crease vertices left out.
     """
 
     gaussian: np.ndarray
@@ -103,6 +107,7 @@ class Curvature:
     asymptotic: np.ndarray
     normals: np.ndarray
     gaussian_patch: np.ndarray
+    roughness: Roughness | None = None
 
     def normal_curvature(self, direction: np.ndarray) -> np.ndarray:
         """(n,) 1/mm: Euler's formula ``k1 cos^2 t + k2 sin^2 t`` for tangent directions (n, 3)."""
@@ -448,6 +453,9 @@ def vertex_curvature(target: TargetSurface, after_fit=None) -> Curvature:
     coef, t1, t2 = _fit_quadrics(fit_v, normals, ring, meanwhile=angles)
     if after_fit is not None:
         after_fit()
+    # the scatter about smooth fits on the same rings: a crease's vertices are left out
+    smooth = None if cut is None else cut.pick[~cut.on_crease]
+    roughness = mesh_roughness(fit_v, normals, t1, t2, ring, smooth)
     area, defect, gauss = angle["area"], angle["defect"], angle["gauss"]
     interior = np.isfinite(gauss)
     # sums over the patch: the ring's plus the vertex's own (no ring-plus-identity matrix)
@@ -510,4 +518,5 @@ def vertex_curvature(target: TargetSurface, after_fit=None) -> Curvature:
         asymptotic=asym,
         normals=normals,
         gaussian_patch=gauss_patch,
+        roughness=roughness,
     )

@@ -193,6 +193,12 @@ class SurfaceAnalysis:
             "synclastic_area_fraction": self._fraction(self.kind == SYNCLASTIC),
             "wire_reach_mm": {"p05": r05, "median": r50, "p95": r95},
             "undercut_area_fraction": self._fraction(self.undercut),
+            # the vertices' scatter about smooth local fits (wirecut.geometry.roughness)
+            "roughness_rms_mm": (
+                float(cu.roughness.rms_mm)
+                if cu.roughness is not None and np.isfinite(cu.roughness.rms_mm)
+                else None
+            ),
         }
 
 
