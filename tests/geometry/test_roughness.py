@@ -115,3 +115,17 @@ def test_check_reports_roughness(tmp_path):
     assert "rough-mesh" in res.output and "0.20 mm RMS" in res.output
     data = json.loads(out.read_text())
     assert data["analysis"]["roughness_rms_mm"] == pytest.approx(0.2, rel=0.05)
+
+
+def test_plan_reports_roughness(tmp_path):
+    """``plan`` says so too (a small noisy dish, 0.3 mm of noise against 0.5 mm)."""
+    v, f = jittered_graph(lambda x, y: 300.0 - (x * x + y * y) / 8000.0, 300.0, 200.0, 31, 21)
+    noisy = tmp_path / "dish.stl"
+    trimesh.Trimesh(_noisy(v, f, 0.3), f, process=False).export(noisy)
+    out = tmp_path / "plan"
+    res = CliRunner().invoke(app, ["plan", str(noisy), "--out", str(out), "--quiet"])
+    assert res.exit_code == 1, res.output
+    data = json.loads((out / "plan.json").read_text())
+    rough = [x for x in data["findings"] if x["code"] == "rough-mesh"]
+    assert len(rough) == 1 and rough[0]["piece"] is None
+    assert data["analysis"]["roughness_rms_mm"] == pytest.approx(0.3, rel=0.1)
