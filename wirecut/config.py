@@ -146,6 +146,14 @@ class MachineSpec:
         room = (self.travel_x_mm[1] - self.travel_x_mm[0]) - sweep_mm - 2 * self.home_clearance_mm
         return float(min(max(room, 0.0) / self.span_mm, 1.0))
 
+    def drivable_tilt(self) -> float:
+        """Steepest climb |dy/dz| of a ruling along the wire the towers can follow: extended
+        to the tower planes, a ruling of slope s puts one tower ``s * span`` higher than the
+        other, which the y travel must hold wherever the blank stands (0.5 for the default
+        machine: a surface climbing more than 26.6 deg along the wire cannot be cut with the
+        wire along that climb)."""
+        return float((self.travel_y_mm[1] - self.travel_y_mm[0]) / self.span_mm)
+
 
 @dataclass(frozen=True)
 class WireSpec:

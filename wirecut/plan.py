@@ -166,16 +166,18 @@ def make_plan(
     intake_findings: list[Finding] | tuple[Finding, ...] = (),
     progress: Progress | None = None,
 ) -> Plan:
-    """Plan the whole job for a target surface (part frame, mm)."""
-    from dataclasses import replace
+    """Plan the whole job for a target surface (part frame, mm).
 
+    One wire direction for the whole part first; where that leaves pieces without a program
+    or out of tolerance and the target's creases divide it into zones
+    (:mod:`wirecut.pieces.zones`), each zone is planned with a direction of its own, and the
+    zoned plan is kept when it leaves less of the surface uncut or out of tolerance
+    (:func:`_shortfall`), or as little with fewer pieces.
+    """
     from wirecut.geometry.cuttability import analyse_surface
     from wirecut.geometry.roughness import roughness_finding
-    from wirecut.pieces.split import prepare_split, split_pieces
-    from wirecut.pieces.stock import allocate
-    from wirecut.ruled.direction import search_direction
+    from wirecut.pieces.zones import crease_zones
     from wirecut.ruled.sampling import prepare_sampling
-    from wirecut.workers import pmap
 
     progress = progress or _no_progress
     findings: list[Finding] = list(intake_findings)
@@ -186,54 +188,21 @@ def make_plan(
     rough = roughness_finding(analysis.curvature.roughness, job.tolerance.surface_mm)
     if rough is not None:
         findings.append(rough)
-    # the split's plan view does not depend on the direction: built while the search runs
-    direction = search_direction(target, analysis, job, meanwhile=lambda: prepare_split(target))
-    split = split_pieces(target, analysis, direction, job, progress=progress)
+    layout = _layout(target, analysis, job, progress)
+    if _shortfall(layout[3])[0] > 0.0:
+        zones = crease_zones(target)
+        if zones:
+            zoned = _zoned_layout(target, zones, job, progress, layout[1].lower_bound)
+            if zoned is not None and _shortfall(zoned[3]) < _shortfall(layout[3]):
+                layout = zoned
+                findings.append(_zoned_finding(zones, target, layout))
+    directions, split, allocation, plans, piece_findings = layout
     findings.extend(split.findings)
-    allocation = allocate(split.pieces, job)
     findings.extend(getattr(allocation, "findings", ()))
-    stock_of = {p.piece_id: p.stock for p in allocation.placements}
-
-    tol = job.tolerance.surface_mm
-
-    def standing(pp, tf) -> tuple:
-        """Worse first: no program, out of tolerance, a face slower than the kerf law knows
-        (the replay holds its kerf at the slowest measured speed, so it cannot see what a
-        crawling face melts away), then the replayed deviation."""
-        if pp.program is None:
-            return (True, True, True, np.inf)
-        dev = pp.deviation.max_abs_mm
-        return (False, dev > tol, any(f.code == "slow-face" for f in tf), dev)
-
-    def programmed(piece):
-        piece = replace(piece, stock=stock_of.get(piece.id, piece.stock))
-        pp, tf = _piece_plan(target, piece, job)
-        first = standing(pp, tf)
-        if getattr(piece.fit, "skewed", False) and any(first[:3]):
-            # skewed rulings swing the towers further than parallel ones and can fan a face
-            # to a crawl: where the program fails, or a face crawls, try parallel rulings
-            why = (
-                "could not be driven within travel" if first[0]
-                else "left the tolerance once driven" if first[1]
-                else "made a face crawl below the speeds the kerf law was measured at"
-            )  # fmt: skip
-            alt = _refit_parallel(target, piece, job, why)
-            if alt is not None:
-                pp2, tf2 = _piece_plan(target, alt[0], job)
-                if standing(pp2, tf2) < first:
-                    pp, tf = pp2, [alt[1], *tf2]
-        _ = pp.deviation  # computed in the worker, not again in the parent
-        return pp, tf
-
-    n = len(split.pieces)
-    progress("programs", 0, n)
-    plans: list[PiecePlan] = []
-    done = lambda i: progress("programs", i, n)  # noqa: E731
-    for pp, tf in pmap(programmed, split.pieces, done=done, meanwhile=_import_writers):
-        findings.extend(tf)
-        plans.append(pp)
+    findings.extend(piece_findings)
     findings.extend(_outside_pieces(target, plans))
 
+    tol = job.tolerance.surface_mm
     for pp in plans:
         r = pp.deviation
         if r.max_abs_mm > tol:
@@ -255,17 +224,155 @@ def make_plan(
                     piece=pp.piece.id,
                 )
             )
-    runner = getattr(direction, "runner_up", None)
-    if runner is not None:
+    for k, direction in enumerate(directions):
+        runner = getattr(direction, "runner_up", None)
+        if runner is None:
+            continue
+        zone = f"zone {k + 1} of {len(directions)}: " if len(directions) > 1 else ""
         findings.append(
             Finding(
                 "direction-choice",
-                f"wire at {np.degrees(direction.best.angle_rad):.0f} deg in plan; runner-up "
+                f"{zone}wire at {np.degrees(direction.best.angle_rad):.0f} deg in plan; runner-up "
                 f"{np.degrees(runner.angle_rad):.0f} deg: {direction.reason}",
                 severity=Severity.INFO,
             )
         )
+    direction = directions[0] if len(directions) == 1 else directions
     return Plan(target, analysis, job, direction, split, allocation, tuple(plans), tuple(findings))
+
+
+def _layout(target, analysis, job: JobProfile, progress: Progress, first_id: int = 1):
+    """(directions, split, allocation, piece plans, piece findings) of the target with one
+    wire direction: the direction search, the split, the stock and the programs."""
+    from wirecut.pieces.split import prepare_split, split_pieces
+    from wirecut.pieces.stock import allocate
+    from wirecut.ruled.direction import search_direction
+
+    # the split's plan view does not depend on the direction: built while the search runs
+    direction = search_direction(target, analysis, job, meanwhile=lambda: prepare_split(target))
+    split = split_pieces(target, analysis, direction, job, progress=progress, first_id=first_id)
+    allocation = allocate(split.pieces, job)
+    plans, found = _programs([(p, target) for p in split.pieces], allocation, job, progress)
+    return (direction,), split, allocation, plans, found
+
+
+def _zoned_layout(target, zones, job: JobProfile, progress: Progress, lower_bound: int):
+    """The layout of :func:`_layout` with each zone (face indices of ``target``) planned on
+    its own target with its own direction, the pieces numbered on from zone to zone and
+    allocated to the stock together; None when a zone cannot be planned."""
+    from wirecut.errors import WirecutError
+    from wirecut.geometry.cuttability import analyse_surface
+    from wirecut.pieces.split import SplitResult, prepare_split, split_pieces
+    from wirecut.pieces.stock import allocate
+    from wirecut.pieces.zones import zone_target
+    from wirecut.ruled.direction import search_direction
+    from wirecut.ruled.sampling import prepare_sampling
+
+    directions, splits, items = [], [], []
+    try:
+        for faces in zones:
+            zone = zone_target(target, faces, job)
+            prepare_sampling(zone)  # before any worker process is forked
+            analysis = analyse_surface(zone, job)
+            direction = search_direction(
+                zone, analysis, job, meanwhile=lambda zone=zone: prepare_split(zone)
+            )
+            split = split_pieces(
+                zone, analysis, direction, job, progress=progress, first_id=len(items) + 1
+            )
+            directions.append(direction)
+            splits.append(split)
+            items += [(p, zone) for p in split.pieces]
+    except WirecutError:
+        return None
+    pieces = tuple(p for p, _ in items)
+    split = SplitResult(
+        pieces=pieces,
+        findings=tuple(f for s in splits for f in s.findings),
+        infeasible_area_mm2=sum(s.infeasible_area_mm2 for s in splits),
+        lower_bound=lower_bound,  # the part's bound, whatever its layout
+        directions=tuple(r for s in splits for r in s.directions),
+        footprint_area_mm2=sum(s.footprint_area_mm2 for s in splits),
+        cuts_mm=splits[0].cuts_mm,
+    )
+    allocation = allocate(pieces, job)
+    plans, found = _programs(items, allocation, job, progress)
+    return tuple(directions), split, allocation, plans, found
+
+
+def _shortfall(plans) -> tuple[float, int]:
+    """(surface area, mm^2, of the pieces without a program and of the out-of-tolerance share
+    of the others; the piece count): what a layout leaves undone, least first."""
+    bad = 0.0
+    for pp in plans:
+        area = float(pp.samples.area_mm2)
+        bad += area if pp.program is None else area * (1.0 - pp.deviation.feasible_area_fraction)
+    return bad, len(plans)
+
+
+def _zoned_finding(zones, target, layout) -> Finding:
+    """``zoned-directions`` (info): the zones and their wire directions."""
+    directions = layout[0]
+    angles = ", ".join(f"{np.degrees(d.best.angle_rad):.0f}" for d in directions)
+    return Finding(
+        "zoned-directions",
+        f"one wire direction for the whole part left pieces undrivable or out of tolerance: "
+        f"the creases divide the surface into {len(zones)} zones, each cut with its own wire "
+        f"direction ({angles} deg in plan); pieces of neighbouring zones meet along the "
+        "creases and are trimmed to their outlines",
+        severity=Severity.INFO,
+    )
+
+
+def _programs(items, allocation, job: JobProfile, progress: Progress):
+    """(piece plans, findings) of ``items`` ((piece, its target) pairs): each piece's program,
+    a parallel refit where its skewed one fails, built in worker processes."""
+    from dataclasses import replace
+
+    from wirecut.workers import pmap
+
+    stock_of = {p.piece_id: p.stock for p in allocation.placements}
+    tol = job.tolerance.surface_mm
+
+    def standing(pp, tf) -> tuple:
+        """Worse first: no program, out of tolerance, a face slower than the kerf law knows
+        (the replay holds its kerf at the slowest measured speed, so it cannot see what a
+        crawling face melts away), then the replayed deviation."""
+        if pp.program is None:
+            return (True, True, True, np.inf)
+        dev = pp.deviation.max_abs_mm
+        return (False, dev > tol, any(f.code == "slow-face" for f in tf), dev)
+
+    def programmed(item):
+        piece, target = item
+        piece = replace(piece, stock=stock_of.get(piece.id, piece.stock))
+        pp, tf = _piece_plan(target, piece, job)
+        first = standing(pp, tf)
+        if getattr(piece.fit, "skewed", False) and any(first[:3]):
+            # skewed rulings swing the towers further than parallel ones and can fan a face
+            # to a crawl: where the program fails, or a face crawls, try parallel rulings
+            why = (
+                "could not be driven within travel" if first[0]
+                else "left the tolerance once driven" if first[1]
+                else "made a face crawl below the speeds the kerf law was measured at"
+            )  # fmt: skip
+            alt = _refit_parallel(target, piece, job, why)
+            if alt is not None:
+                pp2, tf2 = _piece_plan(target, alt[0], job)
+                if standing(pp2, tf2) < first:
+                    pp, tf = pp2, [alt[1], *tf2]
+        _ = pp.deviation  # computed in the worker, not again in the parent
+        return pp, tf
+
+    n = len(items)
+    progress("programs", 0, n)
+    plans: list[PiecePlan] = []
+    found: list[Finding] = []
+    done = lambda i: progress("programs", i, n)  # noqa: E731
+    for pp, tf in pmap(programmed, items, done=done, meanwhile=_import_writers):
+        found.extend(tf)
+        plans.append(pp)
+    return plans, found
 
 
 def _import_writers() -> None:

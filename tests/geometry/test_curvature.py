@@ -203,14 +203,16 @@ def test_a_fold_does_not_bend_its_facets():
 
 
 def _curv_uncut(target):
-    import wirecut.geometry.curvature as curvature
+    import wirecut.geometry.creases as creases
 
-    was = curvature.CREASE_SHARE
-    curvature.CREASE_SHARE = -1.0  # every mesh taken for a smooth tessellation
+    was = creases.CREASE_SHARE
+    creases.CREASE_SHARE = -1.0  # every mesh taken for a smooth tessellation
+    creases.crease_sides.forget(target)
     try:
         return vertex_curvature(target)
     finally:
-        curvature.CREASE_SHARE = was
+        creases.CREASE_SHARE = was
+        creases.crease_sides.forget(target)
 
 
 def test_a_fit_across_the_fold_is_what_the_cut_avoids():

@@ -36,6 +36,8 @@ __all__ = [
     "sharp_edges",
     "crease_ends",
     "crease_edges",
+    "crease_sides",
+    "CREASE_SHARE",
     "break_lines",
     "crease_lines",
     "PARALLEL_SKEW_MM",
@@ -97,6 +99,33 @@ def _sharp_edges(target: Any) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
 
 
 sharp_edges = PerTarget(_sharp_edges)
+
+
+#: A mesh whose share of crease edges is above this is taken for a coarse tessellation of a
+#: smooth surface (or a noisy one), not a surface with creases: it has no sides.
+CREASE_SHARE = 0.2
+
+
+def _crease_sides(target: Any) -> tuple[int, np.ndarray] | None:
+    """(count, side (m,) int) of the target's faces grouped into the connected sides between
+    its creases (scipy's connected components over the face adjacency without the crease
+    edges); None when it has no crease, or more than :data:`CREASE_SHARE` of its inner edges
+    are creases."""
+    from scipy import sparse
+    from scipy.sparse.csgraph import connected_components
+
+    first, second, sharp = sharp_edges(target)
+    if len(first) == 0 or not sharp.any() or sharp.mean() > CREASE_SHARE:
+        return None
+    fa, fb = first // 3, second // 3
+    m = len(target.faces)
+    keep = ~sharp
+    graph = sparse.coo_matrix((np.ones(int(keep.sum())), (fa[keep], fb[keep])), shape=(m, m))
+    count, side = connected_components(graph, directed=False)
+    return int(count), side
+
+
+crease_sides = PerTarget(_crease_sides)
 
 
 def crease_ends(target: Any) -> np.ndarray:

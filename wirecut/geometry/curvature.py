@@ -299,12 +299,6 @@ def _fit_chunk(columns, normals, t1, t2, indptr, indices, start: int, stop: int)
     return sol
 
 
-#: A mesh whose share of crease edges (see :data:`wirecut.geometry.creases.CREASE_DEG`) is
-#: above this is taken for a coarse tessellation of a smooth surface, not a surface with
-#: creases: its fits and patches are not cut.
-CREASE_SHARE = 0.2
-
-
 @dataclass(frozen=True, eq=False)
 class _CreaseCut:
     """The target cut open along its creases: each vertex on a crease has one copy per side.
@@ -324,7 +318,8 @@ class _CreaseCut:
 
 def _crease_cut(target: TargetSurface) -> _CreaseCut | None:
     """The target cut along its crease edges, or None when it has none or when more than
-    :data:`CREASE_SHARE` of its inner edges are creases.
+    :data:`wirecut.geometry.creases.CREASE_SHARE` of its inner edges are creases (a coarse
+    tessellation of a smooth surface, whose fits and patches are not cut).
 
     A quadric fitted across a crease (a fold, the foot or top of a step) sees both sides and
     reports a curvature neither has, and the patch sums of the Gaussian curvature take in the
@@ -332,19 +327,14 @@ def _crease_cut(target: TargetSurface) -> _CreaseCut | None:
     faces are grouped into the connected sides between creases (scipy's connected components
     over the face adjacency without the crease edges), each vertex gets one copy per side it
     touches, and the fits and patches run on that cut mesh."""
-    from scipy.sparse.csgraph import connected_components
+    from wirecut.geometry.creases import crease_sides
 
-    from wirecut.geometry.creases import sharp_edges
-
-    first, second, sharp = sharp_edges(target)
-    if len(first) == 0 or not sharp.any() or sharp.mean() > CREASE_SHARE:
+    cut = crease_sides(target)
+    if cut is None:
         return None
+    sides, side = cut
     fn = np.asarray(target.face_normals, float)
-    fa, fb = first // 3, second // 3
-    m, n = len(target.faces), len(target.vertices)
-    keep = ~sharp
-    graph = sparse.coo_matrix((np.ones(int(keep.sum())), (fa[keep], fb[keep])), shape=(m, m))
-    sides, side = connected_components(graph, directed=False)
+    n = len(target.vertices)
     faces = np.asarray(target.faces, np.int64)
     key = faces * sides + side[:, None]
     copies, inverse = np.unique(key.ravel(), return_inverse=True)

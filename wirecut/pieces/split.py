@@ -737,6 +737,7 @@ def split_pieces(
     *,
     fitter: Callable[..., Any] | None = None,
     resolution_mm: float | None = None,
+    first_id: int = 1,
 ) -> SplitResult:
     """Split the mold into pieces that one ruled cut each can make within tolerance.
 
@@ -757,6 +758,9 @@ def split_pieces(
         default :func:`wirecut.ruled.fit.fit_cut`.
     resolution_mm : float, optional
         Bisection grid step along the wire; default 1 % of the widest strip, at least 1 mm.
+    first_id : int
+        Number of the first piece (``P01`` for 1): the zones of a part are split one after
+        the other and numbered on (:mod:`wirecut.pieces.zones`).
 
     Returns
     -------
@@ -842,7 +846,7 @@ def split_pieces(
     tied = [t for t in trials if len(t[2]) == fewest]
     built = {}
     for t in tied:
-        built[id(t)] = _build(surf, t, target, job, fitter, report)
+        built[id(t)] = _build(surf, t, target, job, fitter, report, first_id)
     best = min(tied, key=lambda t: built[id(t)][1])
     pieces, max_dev, findings, bad_area = built[id(best)]
     rows = tuple(
@@ -877,7 +881,7 @@ def split_pieces(
     )
 
 
-def _build(surf, trial, target, job, fitter, report):
+def _build(surf, trial, target, job, fitter, report, first_id: int = 1):
     """Final pieces of one direction: blocks, full-density fits, volumes, findings."""
     frame, plan, layout, _, hints, ridges = trial
     pieces: list[Piece] = []
@@ -900,7 +904,7 @@ def _build(surf, trial, target, job, fitter, report):
     for (k, poly, a, b), (block, transform, fit) in zip(layout, fits, strict=True):
         if fit is None:
             continue
-        pid = f"P{len(pieces) + 1:02d}"
+        pid = f"P{len(pieces) + first_id:02d}"
         tol = job.tolerance.surface_mm
         # the dense final fit decides where the coarse one of the width search failed
         ok = bool(plan.feasible[k]) or fit.report.max_abs_mm <= fit_budget(job) * tol

@@ -17,7 +17,11 @@ target; rotated into each candidate's frame), cut into strips along the wire of 
 (``job.usable_width_mm`` capped at the target's extent along the wire), and a ruled cut is
 fitted to each strip (:func:`wirecut.ruled.fit.fit_cut`, steps 1-2 only: with step 3 every
 direction within 45 degrees of the rulings would look alike). The score is the
-share of the target area within tolerance (feasible), the strips and the estimated pieces
+share of the target area within tolerance where the towers can drive the wire (feasible: a
+surface that climbs along the wire more steeply than ``MachineSpec.drivable_tilt`` asks one
+tower higher than the other by more than the y travel, so it does not count however well it is
+fitted; a hipped roof's face of 30 degrees, with the wire along its slope, scored 100 % and
+none of its programs could be driven), the strips and the estimated pieces
 (strips times the sweep splits the x travel forces), and the largest deviation. The trial
 width is narrowed to what the curvature allows along that wire (:func:`predicted_width_mm`,
 Euler's formula and the sagitta), so that a synclastic surface is scored at the width it will
@@ -28,7 +32,12 @@ few samples across a narrow strip passes through them and looks feasible where i
 tapered half-column, its generators along the wire, scored 94 % against 96 % for a wire 30
 degrees off them, which needed strips of 87 mm and left 59 % of the area out of tolerance).
 Among the rest, the best candidate has the largest feasible share (ties within half a
-percent), then the fewest estimated pieces, then the smallest max deviation.
+percent), then the least climb along the wire (the area-weighted mean slope |dy/dz| of the
+surface along it, in steps of 0.1: level rulings are the easiest to drive, and a plane's
+level lines are where a fabricator would lay the wire; a hipped roof's face scored alike in
+every direction within its drivable tilt, and the oblique one the piece estimate preferred
+dipped the wire below the bed), then the fewest estimated pieces, then the smallest max
+deviation.
 """
 
 from __future__ import annotations
@@ -71,6 +80,7 @@ _COARSE_SAMPLES = 2_500
 _TIE = 0.005  # feasible shares closer than this count as equal
 _RUNNER_UP_GAP_DEG = 10.0
 _SEED_STEP_DEG = 0.25  # seeds from the analysis are rounded to this
+_CLIMB_STEP = 0.1  # mean climbs closer than this (about 6 deg) count as equal
 
 
 @dataclass(frozen=True)
@@ -287,16 +297,19 @@ def _score(
     lines: np.ndarray | None = None,
     ridges: np.ndarray | None = None,
     creased: tuple[Any, np.ndarray] | None = None,
-) -> tuple[float, float, int, int]:
-    """(feasible area share, max |deviation| mm, strips, estimated pieces) of strips along the
-    wire, at the trial width: the usable span, narrowed to ``width_hint`` (the width the
+) -> tuple[float, float, int, int, float]:
+    """(feasible area share, max |deviation| mm, strips, estimated pieces, climb) of strips
+    along the wire, at the trial width: the usable span, narrowed to ``width_hint`` (the width the
     curvature allows) but never below ``pieces.min_width_mm``. With break ``lines`` (wire
     coordinates, mm: :func:`wirecut.geometry.creases.break_lines`) the strips are laid out
     between them, as the split will, and the samples on a line (a step's wall, the crease
     itself) are left out. ``ridges`` (machine x, mm) are the creases along the wire, where
     the fits put a knot as the split's do (``knots_at`` of :func:`fit_cut`). ``creased`` is
     (target, the frame's rotation): each trial strip's oblique creases along the wire are then
-    followed by skewed rulings, as the split's fits do (``crease_lines`` of :func:`fit_cut`)."""
+    followed by skewed rulings, as the split's fits do (``crease_lines`` of :func:`fit_cut`).
+    Only samples where the surface climbs along the wire no more steeply than the towers can
+    tilt a ruling (``MachineSpec.drivable_tilt``) count as feasible. The climb is the
+    area-weighted mean of that slope |dy/dz| (each sample's capped at 1)."""
     z = samples.points[:, 2]
     z0, z1 = float(z.min()), float(z.max())
     span = max(z1 - z0, 1e-6)
@@ -315,11 +328,19 @@ def _score(
     total = samples.area_mm2
     feasible, worst = 0.0, 0.0
     m = job.machine
+    # where the surface climbs along the wire more steeply than the towers can tilt a ruling
+    # (MachineSpec.drivable_tilt), no program can follow it: not feasible, however well fitted
+    ny, nz = np.abs(samples.normals[:, 1]), np.abs(samples.normals[:, 2])
+    drivable = nz <= m.drivable_tilt() * ny
+    with np.errstate(divide="ignore", invalid="ignore"):
+        slope = np.where(ny > 0, np.minimum(nz / ny, 1.0), 1.0)
+    climb = float(np.average(slope, weights=samples.weights)) if len(slope) else 0.0
     sweep_max = m.travel_x_mm[1] - m.travel_x_mm[0] - 2.0 * m.home_clearance_mm
     for i, (a, b) in enumerate(zip(edges[:-1], edges[1:], strict=True)):
         last = i == n - 1
         sel = (z >= a) & ((z <= b) if last else (z < b))  # each sample in one strip
         part = samples.subset(sel)
+        steady = drivable[sel]
         if (~part.undercut).sum() < 12:
             continue
         oblique = None
@@ -341,12 +362,12 @@ def _score(
         except JobError:
             continue
         r = fit.report
-        feasible += float(part.weights[r.within].sum())
+        feasible += float(part.weights[r.within & steady].sum())
         worst = max(worst, r.max_abs_mm)
     x = samples.points[:, 0]
     along = max(int(math.ceil((float(x.max()) - float(x.min())) / max(sweep_max, 1.0))), 1)
     share = min(feasible / total, 1.0) if total > 0 else 0.0
-    return share, worst, n, n * along
+    return share, worst, n, n * along, climb
 
 
 def search_direction(
@@ -406,7 +427,7 @@ def search_direction(
     rows = []
     results = pmap(scored, [angle for angle, _ in cands], meanwhile=meanwhile)
     for (_, source), (frame, hint, score) in zip(cands, results, strict=True):
-        feasible, worst, strips, pieces = score
+        feasible, worst, strips, pieces, climb = score
         rows.append(
             {
                 "angle_deg": round(math.degrees(frame.angle_rad), 3),
@@ -414,6 +435,7 @@ def search_direction(
                 "max_deviation_mm": worst,
                 "strips": strips,
                 "estimated_pieces": pieces,
+                "climb": round(climb, 4),
                 "trial_width_mm": round(min(hint, job.usable_width_mm), 1),
                 # the curvature allows less than the narrowest piece: the coarse fits, with few
                 # samples per narrow strip, cannot be trusted to say otherwise
@@ -426,6 +448,7 @@ def search_direction(
         key=lambda r: (
             r["below_min_width"],
             -round(r["feasible_area_fraction"] / _TIE),
+            round(r["climb"] / _CLIMB_STEP),
             r["estimated_pieces"],
             r["max_deviation_mm"],
         )
@@ -450,6 +473,12 @@ def search_direction(
             f"the runner-up at {runner['angle_deg']:.0f} deg keeps "
             f"{runner['feasible_area_fraction'] * 100:.1f}% of the area within tolerance "
             f"against {best['feasible_area_fraction'] * 100:.1f}%"
+        )
+    elif round(runner["climb"] / _CLIMB_STEP) != round(best["climb"] / _CLIMB_STEP):
+        reason = (
+            f"the runner-up at {runner['angle_deg']:.0f} deg keeps as much area within "
+            f"tolerance but the surface climbs along its wire by {runner['climb']:.2f} on "
+            f"average against {best['climb']:.2f}: its rulings tilt further"
         )
     elif runner["estimated_pieces"] != best["estimated_pieces"]:
         reason = (

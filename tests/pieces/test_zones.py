@@ -1,0 +1,121 @@
+"""Zones: the sides between a surface's creases, each planned with its own wire direction.
+
+A hipped roof is the case known by construction: four planar faces, each cut exactly by a
+wire along its eave (its horizontal lines), and the plan areas of its faces are those of two
+trapezoids and two triangles.
+"""
+
+from __future__ import annotations
+
+import json
+from dataclasses import replace
+
+import numpy as np
+import pytest
+from shapes_pieces import grid_mesh, hip_roof
+from typer.testing import CliRunner
+
+from wirecut.cli import app
+from wirecut.config import default_job
+from wirecut.geometry.mesh import target_from_arrays
+from wirecut.pieces.zones import MIN_ZONE_SHARE, crease_zones, zone_target
+
+JOB = default_job()
+UP = np.array([0.0, 0.0, 1.0])
+
+
+def _plan_area(target, faces) -> float:
+    return float((target.face_areas[faces] * np.abs(target.face_normals[faces] @ UP)).sum())
+
+
+def test_a_hip_roof_has_four_zones_of_known_plan_area():
+    v, f = hip_roof(1500.0, 1000.0, 30.0)
+    target, _ = target_from_arrays(v, f, JOB)
+    zones = crease_zones(target)
+    assert len(zones) == 4
+    # trapezoids (3000 + 1000) / 2 x 1000 and triangles 2000 x 1000 / 2 (plane geometry)
+    areas = [_plan_area(target, z) for z in zones]
+    assert areas == pytest.approx([2.0e6, 2.0e6, 1.0e6, 1.0e6], rel=1e-9)
+    assert sorted(np.concatenate(zones)) == list(range(len(target.faces)))
+
+
+def test_a_zone_target_keeps_the_part_frame():
+    v, f = hip_roof(900.0, 600.0, 30.0)
+    target, _ = target_from_arrays(v, f, JOB)
+    zone = zone_target(target, crease_zones(target)[0], JOB)
+    # every zone vertex is a vertex of the part, where it was
+    d = np.linalg.norm(zone.vertices[:, None, :] - target.vertices[None, ::1, :], axis=2)
+    assert d.min(axis=1).max() < 1e-9
+
+
+def test_no_creases_no_zones():
+    v, f = grid_mesh(np.linspace(0, 1000, 21), np.linspace(0, 600, 13), lambda x, y: 0.1 * x)
+    target, _ = target_from_arrays(v, f, JOB)
+    assert crease_zones(target) == []
+
+
+def test_a_narrow_side_joins_its_neighbour():
+    """A plate folded twice 30 mm apart: the 30 mm band between the folds has 3 % of the plan
+    area, under MIN_ZONE_SHARE, and joins a side; two zones remain."""
+    xs = np.r_[np.linspace(0, 485, 98), np.linspace(500, 530, 7), np.linspace(545, 1000, 92)]
+
+    def height(x, y):
+        return 300.0 + np.clip(x - 500.0, 0.0, 30.0) * 0.5  # slopes 0, 0.5, 0
+
+    v, f = grid_mesh(xs, np.linspace(0, 600, 25), height)
+    target, _ = target_from_arrays(v, f, JOB)
+    assert 30.0 / 1000.0 < MIN_ZONE_SHARE
+    zones = crease_zones(target)
+    assert len(zones) == 2
+    assert sum(len(z) for z in zones) == len(target.faces)
+
+
+def test_a_hip_roof_is_planned_zone_by_zone(tmp_path):
+    """With one wire direction two of the roof's faces climb 30 deg along the wire, more than
+    the default towers can tilt a ruling (800 mm of y travel over a 1600 mm span: 26.6 deg):
+    each zone gets its own direction, every piece a program, and every face is exact."""
+    import trimesh
+
+    v, f = hip_roof(900.0, 600.0, 30.0, n=13)
+    mesh = tmp_path / "roof.stl"
+    trimesh.Trimesh(v, f, process=False).export(mesh)
+    out = tmp_path / "plan"
+    res = CliRunner().invoke(app, ["plan", str(mesh), "--out", str(out), "--quiet"])
+    assert res.exit_code == 0, res.output
+    data = json.loads((out / "plan.json").read_text())
+    codes = [x["code"] for x in data["findings"]]
+    assert codes.count("zoned-directions") == 1
+    assert data["summary"]["max_deviation_mm"] < 0.01  # planes, fitted exactly
+    assert all(p["gcode"] for p in data["pieces"])
+    ids = [p["id"] for p in data["pieces"]]
+    assert ids == [f"P{k:02d}" for k in range(1, len(ids) + 1)]
+    for p in data["pieces"]:
+        # each piece's wire runs along its face's eave: along x on the long faces (their
+        # outline lies on one side of the ridge, y of one sign), along y on the ends
+        xy = np.asarray(p["region_part_xy_mm"])
+        wire = np.abs(np.asarray(p["wire_direction_part"]))
+        long_face = np.all(xy[:, 1] >= -1e-6) or np.all(xy[:, 1] <= 1e-6)
+        ends = np.all(np.abs(xy[:, 0]) >= 300.0 - 1e-6)
+        assert long_face or ends
+        if ends and not long_face:
+            assert wire[1] == pytest.approx(1.0, abs=1e-6)
+        elif long_face and not ends:
+            assert wire[0] == pytest.approx(1.0, abs=1e-6)
+
+
+def test_a_steep_plane_is_cut_along_its_horizontal_lines():
+    """A plane climbing 30 deg along y: along x the rulings are level; along y they would
+    climb beyond the y travel. The direction search picks x (the score counts only what the
+    towers can drive, MachineSpec.drivable_tilt)."""
+    from wirecut.geometry.cuttability import analyse_surface
+    from wirecut.ruled.direction import search_direction
+
+    slope = np.tan(np.radians(30.0))
+    v, f = grid_mesh(np.linspace(0, 1200, 25), np.linspace(0, 800, 17), lambda x, y: slope * y)
+    target, _ = target_from_arrays(v, f, JOB)
+    choice = search_direction(target, analyse_surface(target, JOB), JOB)
+    assert abs(choice.best.wire_part[0]) == pytest.approx(1.0, abs=1e-9)
+    # a machine twice as tall tilts 30 deg rulings (1600 mm over 1600 mm): both would do
+    tall = replace(JOB, machine=replace(JOB.machine, travel_y_mm=(0.0, 1600.0)))
+    assert tall.machine.drivable_tilt() == pytest.approx(1.0)
+    assert JOB.machine.drivable_tilt() == pytest.approx(0.5)  # 800 / 1600
