@@ -194,3 +194,22 @@ def test_a_hyperbolic_paraboloid_is_cut_along_a_ruling_family():
     choice = search_direction(target, analyse_surface(target, job), job)
     got = np.degrees(choice.best.angle_rad) % 180.0
     assert min(abs(got - 45.0), abs(got - 135.0)) < 1e-6
+
+
+@pytest.mark.parametrize("no_gouge", [False, True])
+def test_chord_reach_is_the_sagitta_chord(no_gouge):
+    """The chord of a circle of radius R whose sagitta is s: c = 2 sqrt(2 R s - s^2), from
+    s = R - sqrt(R^2 - c^2 / 4) (standard circle geometry); s = tol (no-gouge) or 2 tol (the
+    best line errs by half the sagitta either side)."""
+    from wirecut.ruled.direction import chord_reach_mm
+
+    tol = 0.5
+    s = tol if no_gouge else 2.0 * tol
+    radii = np.array([0.4, 50.0, 1000.0, 24_000.0])
+    expect = np.where(radii > s, 2.0 * np.sqrt(np.abs(2.0 * radii * s - s * s)), 2.0 * radii)
+    assert chord_reach_mm(1.0 / radii, tol, no_gouge) == pytest.approx(expect, rel=1e-12)
+    # a plane's fit noise (k ~ 1e-16 / mm) is a plane: tens of kilometres, never 0 mm (the
+    # difference of squares R^2 - (R - s)^2 cancelled to zero there)
+    flat = chord_reach_mm(np.array([1e-16, 1e-20, 0.0]), tol, no_gouge)
+    assert flat[0] == pytest.approx(2.0 * np.sqrt(2.0 * 1e16 * s), rel=1e-9)
+    assert flat[1] > 1e9 and flat[2] == np.inf

@@ -75,8 +75,9 @@ def test_shift_into_travel_is_reported():
 @pytest.mark.parametrize(
     ("x_mm", "top", "axis", "over"),
     [
-        # top 790 + clearance 30 = 820 > travel 800: 20 mm over on Y (by hand)
-        ((200.0, 800.0), 790.0, "Y", 20.0),
+        # top 798: the wire parks at least 5 mm above the blank (the clearance lowered to
+        # what the travel leaves, but not below that): 803 > travel 800, 3 mm over on Y
+        ((200.0, 800.0), 798.0, "Y", 3.0),
         # a block as wide as the travel cannot take the approach and the overshoot
         ((0.0, 1200.0), 300.0, "X", None),
     ],
@@ -91,6 +92,24 @@ def test_outside_travel_refused(x_mm, top, axis, over):
     assert f"axis {axis}" in f[0].message
     if over is not None:
         assert f"{over:.1f} mm" in f[0].message
+
+
+def test_the_park_height_is_lowered_to_the_travel_top():
+    """Top 790 + home clearance 30 = 820 is above the y travel (800): the wire starts and ends
+    beside the blank at 800 instead, 10 mm above it, and the program stays in travel."""
+    prof = mesa(200.0, 800.0, 80.0, 60.0, 100.0)
+    piece = make_piece(prof, prof, (200.0, 800.0), (0.0, 790.0), (300.0, 1300.0))
+    program, _report, findings = build_program(piece, JOB)
+    assert program is not None
+    assert not [f for f in findings if f.code == "outside-travel"]
+    t = program.positions()
+    assert t[:, [1, 3]].max() == pytest.approx(JOB.machine.travel_y_mm[1])
+    # below 790 + 30 the wire is beside the blank (x outside it by the clearance) or cutting
+    high = t[:, 1] > 790.0 + 1e-6
+    assert np.all((t[high, 0] < 200.0) | (t[high, 0] > 800.0))
+    # a blank that leaves room for the whole clearance keeps it (730 + 30 = 760)
+    lower = make_piece(prof, prof, (200.0, 800.0), (0.0, 730.0), (300.0, 1300.0))
+    assert build_program(lower, JOB)[0].positions()[:, 1].max() == pytest.approx(760.0)
 
 
 def test_travel_check_unit():

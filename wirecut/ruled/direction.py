@@ -32,12 +32,12 @@ few samples across a narrow strip passes through them and looks feasible where i
 tapered half-column, its generators along the wire, scored 94 % against 96 % for a wire 30
 degrees off them, which needed strips of 87 mm and left 59 % of the area out of tolerance).
 Among the rest, the best candidate has the largest feasible share (ties within half a
-percent), then the least climb along the wire (the area-weighted mean slope |dy/dz| of the
-surface along it, in steps of 0.1: level rulings are the easiest to drive, and a plane's
-level lines are where a fabricator would lay the wire; a hipped roof's face scored alike in
-every direction within its drivable tilt, and the oblique one the piece estimate preferred
-dipped the wire below the bed), then the fewest estimated pieces, then the smallest max
-deviation.
+percent), then the fewest estimated pieces, then the smallest max deviation in steps of a
+tenth of the tolerance, then the least climb along the wire (the area-weighted mean slope
+|dy/dz| of the surface along it, in steps of 0.1: level rulings are the easiest to drive,
+and a plane's level lines are where a fabricator would lay the wire; a hipped roof's face
+fits exactly in every direction within its drivable tilt, and the oblique one a difference
+of a micron preferred dipped the wire below the bed), then the smallest max deviation.
 """
 
 from __future__ import annotations
@@ -81,6 +81,7 @@ _TIE = 0.005  # feasible shares closer than this count as equal
 _RUNNER_UP_GAP_DEG = 10.0
 _SEED_STEP_DEG = 0.25  # seeds from the analysis are rounded to this
 _CLIMB_STEP = 0.1  # mean climbs closer than this (about 6 deg) count as equal
+_DEVIATION_STEP = 0.1  # quick-fit deviations closer than this share of the tolerance, alike
 
 
 @dataclass(frozen=True)
@@ -239,9 +240,11 @@ def chord_reach_mm(k_normal: np.ndarray, tolerance_mm: float, no_gouge: bool) ->
     """
     k = np.abs(np.asarray(k_normal, float))
     e = tolerance_mm if no_gouge else 2.0 * tolerance_mm
-    with np.errstate(divide="ignore", invalid="ignore"):
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         r = 1.0 / k
-        w = 2.0 * np.sqrt(np.maximum(r * r - np.maximum(r - e, 0.0) ** 2, 0.0))
+        # R^2 - (R - e)^2 = 2 R e - e^2, written so: the difference of the squares cancels to
+        # zero where R is huge (a plane's fit noise, k ~ 1e-16) and called a plane 0 mm wide
+        w = np.where(r > e, 2.0 * np.sqrt(np.maximum(2.0 * r * e - e * e, 0.0)), 2.0 * r)
     return np.where(k > 0, w, np.inf)
 
 
@@ -444,12 +447,22 @@ def search_direction(
                 "_frame": frame,
             }
         )
+    # deviations closer than a tenth of the tolerance are alike: the climb decides there
+    dev_step = _DEVIATION_STEP * job.tolerance.surface_mm
+
+    def dev_bin(r: dict) -> int:
+        return round(r["max_deviation_mm"] / dev_step)
+
+    def climb_bin(r: dict) -> int:
+        return round(r["climb"] / _CLIMB_STEP)
+
     rows.sort(
         key=lambda r: (
             r["below_min_width"],
             -round(r["feasible_area_fraction"] / _TIE),
-            round(r["climb"] / _CLIMB_STEP),
             r["estimated_pieces"],
+            dev_bin(r),
+            climb_bin(r),
             r["max_deviation_mm"],
         )
     )
@@ -474,17 +487,18 @@ def search_direction(
             f"{runner['feasible_area_fraction'] * 100:.1f}% of the area within tolerance "
             f"against {best['feasible_area_fraction'] * 100:.1f}%"
         )
-    elif round(runner["climb"] / _CLIMB_STEP) != round(best["climb"] / _CLIMB_STEP):
-        reason = (
-            f"the runner-up at {runner['angle_deg']:.0f} deg keeps as much area within "
-            f"tolerance but the surface climbs along its wire by {runner['climb']:.2f} on "
-            f"average against {best['climb']:.2f}: its rulings tilt further"
-        )
     elif runner["estimated_pieces"] != best["estimated_pieces"]:
         reason = (
             f"the runner-up at {runner['angle_deg']:.0f} deg keeps as much area within "
             f"tolerance but needs about {runner['estimated_pieces']} pieces against "
             f"{best['estimated_pieces']}"
+        )
+    elif dev_bin(runner) == dev_bin(best) and climb_bin(runner) != climb_bin(best):
+        reason = (
+            f"the runner-up at {runner['angle_deg']:.0f} deg keeps as much area within "
+            f"tolerance in as many pieces, but the surface climbs along its wire by "
+            f"{runner['climb']:.2f} on average against {best['climb']:.2f}: its rulings tilt "
+            "further"
         )
     else:
         reason = (

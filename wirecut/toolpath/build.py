@@ -162,12 +162,26 @@ def _wire_dirs(left: np.ndarray, right: np.ndarray, width_mm: float) -> np.ndarr
     return 0.5 * (d[:-1] + d[1:])
 
 
+#: The least height above the blank the wire starts and ends at, where the home clearance
+#: would take it above the y travel, mm.
+_LEAST_RISE_MM = 5.0
+
+
 def _assemble(off_l, off_r, block, job, overshoot_mm):
-    """Face positions of the heated path: approach, entry, profile, exit, rise."""
+    """Face positions of the heated path: approach, entry, profile, exit, rise.
+
+    The wire starts and ends beside the blank, ``home_clearance_mm`` above its top; where
+    that would leave the y travel, as low as the travel's top, but never less than
+    ``_LEAST_RISE_MM`` above the blank (the wire stands beside the blank there, a clearance
+    away along the sweep, so the height only keeps it clear of the top when it parks)."""
     c = job.machine.home_clearance_mm
     x_entry = min(block.x_mm[0], off_l[0, 0], off_r[0, 0]) - c
     x_exit = max(block.x_mm[1], off_l[-1, 0], off_r[-1, 0]) + overshoot_mm
-    y_top = max(block.y_mm[1], off_l[:, 1].max(), off_r[:, 1].max()) + c
+    highest = max(block.y_mm[1], off_l[:, 1].max(), off_r[:, 1].max())
+    y_top = highest + c
+    ceiling = float(job.machine.travel_y_mm[1])
+    if y_top > ceiling:
+        y_top = max(ceiling, highest + min(_LEAST_RISE_MM, c))
 
     def path(off):
         head = np.array([[x_entry, y_top], [x_entry, off[0, 1]]])
