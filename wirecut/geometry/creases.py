@@ -54,7 +54,8 @@ CREASE_DEG = 10.0
 #: smooth surface bends about as much at every edge but the diagonals of its quads (two of
 #: the four on a grid mesh, hence the third least); a crease stands out from the faces on
 #: either side, which are flat or gently curved. Boundary edges bend nowhere and are left out
-#: of the four; with fewer than three left the edge is no crease. (A crease that zigzags
+#: of the four; with fewer than three left the edge is no crease. Where creases meet, a bent
+#: edge whose two ends both lie on crease edges is one too. (A crease that zigzags
 #: across the triangles has a crease edge among its four and is not found: its fits are
 #: made across it as on a smooth surface, and it runs along neither the sweep nor the wire.)
 CREASE_CONTRAST = 3.0
@@ -95,6 +96,14 @@ def _sharp_edges(target: Any) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     sharp = bent.copy()
     with np.errstate(invalid="ignore"):
         sharp[bent] = angle[bent] >= CREASE_CONTRAST * third_least
+    # where creases meet (a recess's corner, two chamfers and its floor) the edges around
+    # an edge are creases too, and the contrast fails: a bent edge both of whose ends lie on
+    # crease edges joins them (once; a smooth tessellation has no crease edges to join)
+    if sharp.any():
+        ends = table.edges[table.counts == 2]
+        on = np.zeros(len(target.vertices), bool)
+        on[ends[sharp].ravel()] = True
+        sharp |= bent & on[ends[:, 0]] & on[ends[:, 1]]
     return first, second, sharp
 
 
