@@ -152,3 +152,18 @@ def test_a_steep_plane_is_cut_along_its_horizontal_lines():
     tall = replace(JOB, machine=replace(JOB.machine, travel_y_mm=(0.0, 1600.0)))
     assert tall.machine.drivable_tilt() == pytest.approx(1.0)
     assert JOB.machine.drivable_tilt() == pytest.approx(0.5)  # 800 / 1600
+
+
+def test_a_noisy_mesh_has_no_zones():
+    """Noise of 3 mm on a panel meshed at 20 mm bends many edges past the crease angle: its
+    crease sides are many small patches (over MAX_SIDES), not faces of a part."""
+    from wirecut.geometry.creases import crease_sides
+    from wirecut.pieces.zones import MAX_SIDES
+
+    rng = np.random.default_rng(5)
+    v, f = grid_mesh(np.linspace(0, 3000, 151), np.linspace(0, 2000, 101), lambda x, y: 0 * x)
+    v[:, 2] += rng.normal(0.0, 3.0, len(v))
+    target, _ = target_from_arrays(v, f, JOB)
+    sides = crease_sides(target)
+    assert sides is not None and sides[0] > MAX_SIDES
+    assert crease_zones(target) == []

@@ -30,8 +30,11 @@ import numpy as np
 
 from wirecut.config import JobProfile
 
-__all__ = ["MIN_ZONE_SHARE", "crease_zones", "zone_target"]
+__all__ = ["MAX_SIDES", "MIN_ZONE_SHARE", "crease_zones", "zone_target"]
 
+#: More sides than this between the creases is a noisy or finely faceted mesh, not a part of
+#: a few faces that want directions of their own: no zones (and no quadratic merging).
+MAX_SIDES = 100
 #: A side with less of the plan area than this share joins a neighbour (a coffer's chamfers,
 #: 60 mm wide on a 2 m x 1.5 m plate, have 1.5 % and 2.5 % each, and need directions of
 #: their own).
@@ -40,11 +43,12 @@ MIN_ZONE_SHARE = 0.01
 
 def crease_zones(target: Any) -> list[np.ndarray]:
     """Face indices of each zone of ``target`` (see the module docstring), largest plan area
-    first; empty when the creases leave fewer than two zones."""
+    first; empty when the creases leave fewer than two zones, or more than ``MAX_SIDES``
+    sides."""
     from wirecut.geometry.creases import crease_sides, sharp_edges
 
     sides = crease_sides(target)
-    if sides is None or sides[0] < 2:
+    if sides is None or not 2 <= sides[0] <= MAX_SIDES:
         return []
     count, side = sides
     side = side.copy()
