@@ -24,6 +24,18 @@ JOB = default_job()
 UP = np.array([0.0, 0.0, 1.0])
 
 
+def _planned(tmp_path, v, f) -> dict:
+    """plan.json of ``wirecut plan`` on the mesh (v, f), which must exit 0."""
+    import trimesh
+
+    mesh = tmp_path / "part.stl"
+    trimesh.Trimesh(v, f, process=False).export(mesh)
+    out = tmp_path / "plan"
+    res = CliRunner().invoke(app, ["plan", str(mesh), "--out", str(out), "--quiet"])
+    assert res.exit_code == 0, res.output
+    return json.loads((out / "plan.json").read_text())
+
+
 def _plan_area(target, faces) -> float:
     return float((target.face_areas[faces] * np.abs(target.face_normals[faces] @ UP)).sum())
 
@@ -58,15 +70,7 @@ def test_a_coffer_has_a_zone_per_chamfer():
 def test_a_coffer_is_planned_zone_by_zone(tmp_path):
     """With the wire along one axis two of the chamfers climb 45 deg along it: zone by zone
     every chamfer is cut along its own level lines, every piece exact and with a program."""
-    import trimesh
-
-    v, f = coffer_plate()
-    mesh = tmp_path / "coffer.stl"
-    trimesh.Trimesh(v, f, process=False).export(mesh)
-    out = tmp_path / "plan"
-    res = CliRunner().invoke(app, ["plan", str(mesh), "--out", str(out), "--quiet"])
-    assert res.exit_code == 0, res.output
-    data = json.loads((out / "plan.json").read_text())
+    data = _planned(tmp_path, *coffer_plate())
     assert [x["code"] for x in data["findings"]].count("zoned-directions") == 1
     assert data["summary"]["max_deviation_mm"] < 0.01  # planes, fitted exactly
     assert all(p["gcode"] for p in data["pieces"])
@@ -107,15 +111,7 @@ def test_a_hip_roof_is_planned_zone_by_zone(tmp_path):
     """With one wire direction two of the roof's faces climb 30 deg along the wire, more than
     the default towers can tilt a ruling (800 mm of y travel over a 1600 mm span: 26.6 deg):
     each zone gets its own direction, every piece a program, and every face is exact."""
-    import trimesh
-
-    v, f = hip_roof(900.0, 600.0, 30.0, n=13)
-    mesh = tmp_path / "roof.stl"
-    trimesh.Trimesh(v, f, process=False).export(mesh)
-    out = tmp_path / "plan"
-    res = CliRunner().invoke(app, ["plan", str(mesh), "--out", str(out), "--quiet"])
-    assert res.exit_code == 0, res.output
-    data = json.loads((out / "plan.json").read_text())
+    data = _planned(tmp_path, *hip_roof(900.0, 600.0, 30.0, n=13))
     codes = [x["code"] for x in data["findings"]]
     assert codes.count("zoned-directions") == 1
     assert data["summary"]["max_deviation_mm"] < 0.01  # planes, fitted exactly
