@@ -13,6 +13,7 @@ from collections.abc import Callable
 from dataclasses import dataclass
 from functools import cached_property
 from pathlib import Path
+from typing import NamedTuple
 
 import numpy as np
 
@@ -189,13 +190,13 @@ def make_plan(
     if rough is not None:
         findings.append(rough)
     layout = _layout(target, analysis, job, progress)
-    if _shortfall(layout[3])[0] > 0.0:
+    if _shortfall(layout.plans)[0] > 0.0:
         zones = crease_zones(target)
         if zones:
-            zoned = _zoned_layout(target, zones, job, progress, layout[1].lower_bound)
-            if zoned is not None and _shortfall(zoned[3]) < _shortfall(layout[3]):
+            zoned = _zoned_layout(target, zones, job, progress, layout.split.lower_bound)
+            if zoned is not None and _shortfall(zoned.plans) < _shortfall(layout.plans):
                 layout = zoned
-                findings.append(_zoned_finding(zones, target, layout))
+                findings.append(_zoned_finding(layout))
     directions, split, allocation, plans, piece_findings = layout
     findings.extend(split.findings)
     findings.extend(getattr(allocation, "findings", ()))
@@ -241,31 +242,51 @@ def make_plan(
     return Plan(target, analysis, job, direction, split, allocation, tuple(plans), tuple(findings))
 
 
-def _layout(target, analysis, job: JobProfile, progress: Progress, first_id: int = 1):
-    """(directions, split, allocation, piece plans, piece findings) of the target with one
-    wire direction: the direction search, the split, the stock and the programs."""
+class _Layout(NamedTuple):
+    """A way to cut the part: the wire direction of each zone (one for the whole part, or one
+    per zone), the split, the stock allocation, the piece plans and their findings."""
+
+    directions: tuple
+    split: object
+    allocation: object
+    plans: list
+    findings: list
+
+
+def _directed_split(target, analysis, job: JobProfile, progress: Progress, first_id: int = 1):
+    """(direction choice, split) of a target: the direction search, then the split."""
     from wirecut.pieces.split import prepare_split, split_pieces
-    from wirecut.pieces.stock import allocate
     from wirecut.ruled.direction import search_direction
 
     # the split's plan view does not depend on the direction: built while the search runs
     direction = search_direction(target, analysis, job, meanwhile=lambda: prepare_split(target))
-    split = split_pieces(target, analysis, direction, job, progress=progress, first_id=first_id)
+    return direction, split_pieces(
+        target, analysis, direction, job, progress=progress, first_id=first_id
+    )
+
+
+def _layout(target, analysis, job: JobProfile, progress: Progress) -> _Layout:
+    """The part cut with one wire direction: the direction search, the split, the stock and
+    the programs."""
+    from wirecut.pieces.stock import allocate
+
+    direction, split = _directed_split(target, analysis, job, progress)
     allocation = allocate(split.pieces, job)
     plans, found = _programs([(p, target) for p in split.pieces], allocation, job, progress)
-    return (direction,), split, allocation, plans, found
+    return _Layout((direction,), split, allocation, plans, found)
 
 
-def _zoned_layout(target, zones, job: JobProfile, progress: Progress, lower_bound: int):
+def _zoned_layout(
+    target, zones, job: JobProfile, progress: Progress, lower_bound: int
+) -> _Layout | None:
     """The layout of :func:`_layout` with each zone (face indices of ``target``) planned on
     its own target with its own direction, the pieces numbered on from zone to zone and
     allocated to the stock together; None when a zone cannot be planned."""
     from wirecut.errors import WirecutError
     from wirecut.geometry.cuttability import analyse_surface
-    from wirecut.pieces.split import SplitResult, prepare_split, split_pieces
+    from wirecut.pieces.split import SplitResult
     from wirecut.pieces.stock import allocate
     from wirecut.pieces.zones import zone_target
-    from wirecut.ruled.direction import search_direction
     from wirecut.ruled.sampling import prepare_sampling
 
     directions, splits, items = [], [], []
@@ -274,12 +295,7 @@ def _zoned_layout(target, zones, job: JobProfile, progress: Progress, lower_boun
             zone = zone_target(target, faces, job)
             prepare_sampling(zone)  # before any worker process is forked
             analysis = analyse_surface(zone, job)
-            direction = search_direction(
-                zone, analysis, job, meanwhile=lambda zone=zone: prepare_split(zone)
-            )
-            split = split_pieces(
-                zone, analysis, direction, job, progress=progress, first_id=len(items) + 1
-            )
+            direction, split = _directed_split(zone, analysis, job, progress, len(items) + 1)
             directions.append(direction)
             splits.append(split)
             items += [(p, zone) for p in split.pieces]
@@ -297,7 +313,7 @@ def _zoned_layout(target, zones, job: JobProfile, progress: Progress, lower_boun
     )
     allocation = allocate(pieces, job)
     plans, found = _programs(items, allocation, job, progress)
-    return tuple(directions), split, allocation, plans, found
+    return _Layout(tuple(directions), split, allocation, plans, found)
 
 
 def _shortfall(plans) -> tuple[float, int]:
@@ -310,14 +326,14 @@ def _shortfall(plans) -> tuple[float, int]:
     return bad, len(plans)
 
 
-def _zoned_finding(zones, target, layout) -> Finding:
+def _zoned_finding(layout: _Layout) -> Finding:
     """``zoned-directions`` (info): the zones and their wire directions."""
-    directions = layout[0]
+    directions = layout.directions
     angles = ", ".join(f"{np.degrees(d.best.angle_rad):.0f}" for d in directions)
     return Finding(
         "zoned-directions",
         f"one wire direction for the whole part left pieces undrivable or out of tolerance: "
-        f"the creases divide the surface into {len(zones)} zones, each cut with its own wire "
+        f"the creases divide the surface into {len(directions)} zones, each cut with its own wire "
         f"direction ({angles} deg in plan); pieces of neighbouring zones meet along the "
         "creases and are trimmed to their outlines",
         severity=Severity.INFO,
