@@ -163,3 +163,25 @@ def test_a_noisy_mesh_has_no_zones():
     sides = crease_sides(target)
     assert sides is not None and sides[0] > MAX_SIDES
     assert crease_zones(target) == []
+
+
+def test_the_shortfall_counts_what_is_left_undone():
+    """A piece without a program counts its whole area; one with a program, the share of its
+    area out of tolerance; fewer pieces break a tie (plan._shortfall)."""
+    from types import SimpleNamespace
+
+    from wirecut.plan import _shortfall
+
+    def piece(area, program, feasible):
+        return SimpleNamespace(
+            samples=SimpleNamespace(area_mm2=area),
+            program=object() if program else None,
+            deviation=SimpleNamespace(feasible_area_fraction=feasible),
+        )
+
+    one = [piece(1000.0, False, 1.0), piece(2000.0, True, 0.75)]
+    assert _shortfall(one) == (1000.0 + 500.0, 2)
+    clean = [piece(1500.0, True, 1.0)] * 3
+    assert _shortfall(clean) == (0.0, 3)
+    assert _shortfall(clean) < _shortfall(one)
+    assert _shortfall(clean[:2]) < _shortfall(clean)  # as little undone, in fewer pieces
