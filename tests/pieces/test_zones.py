@@ -185,3 +185,28 @@ def test_the_shortfall_counts_what_is_left_undone():
     assert _shortfall(clean) == (0.0, 3)
     assert _shortfall(clean) < _shortfall(one)
     assert _shortfall(clean[:2]) < _shortfall(clean)  # as little undone, in fewer pieces
+
+
+def test_a_steep_runner_up_is_not_split():
+    """A chamfer 60 mm x 820 mm sloping 45 deg, on a machine of 1000 mm span (800 mm usable):
+    level, the wire is along its 820 mm and needs two strips; 30 deg off level it needs one
+    and climbs 0.5, past half the drivable tilt (700 / 1000 = 0.7), where the extended
+    rulings passed 275 mm below the bed. The search ranks the level wire first and the split
+    does not try the steep runner-up for its fewer pieces."""
+    from wirecut.geometry.cuttability import analyse_surface
+    from wirecut.pieces.split import _candidates
+    from wirecut.ruled.direction import search_direction
+
+    small = replace(
+        JOB,
+        machine=replace(
+            JOB.machine, span_mm=1000.0, travel_x_mm=(0.0, 900.0), travel_y_mm=(0.0, 700.0)
+        ),
+    )
+    v, f = grid_mesh(np.linspace(0, 60, 7), np.linspace(0, 820, 42), lambda x, y: 300.0 - x)
+    target, _ = target_from_arrays(v, f, small)
+    choice = search_direction(target, analyse_surface(target, small), small)
+    assert abs(choice.best.wire_part[1]) == pytest.approx(1.0, abs=1e-9)  # along y: level
+    steep = [r for r in choice.table if r["steep"]]
+    assert steep and all(r["climb"] > 0.35 for r in steep)
+    assert _candidates(choice) == [choice.best]

@@ -487,8 +487,8 @@ def _candidates(direction: Any) -> list[DirectionFrame]:
 
 def _contends(choice: Any, runner: DirectionFrame) -> bool:
     """True when the direction search's runner-up is close enough to the best to be split too:
-    as much area within tolerance (1 %) and at most one estimated piece more. Without the
-    search's table, always."""
+    as much area within tolerance (1 %), at most one estimated piece more, and no steep climb
+    along the wire where the best has none. Without the search's table, always."""
     table = getattr(choice, "table", ())
     best = getattr(choice, "score", None)
     deg = float(np.degrees(runner.angle_rad))
@@ -498,6 +498,9 @@ def _contends(choice: Any, runner: DirectionFrame) -> bool:
     return (
         row["feasible_area_fraction"] >= best["feasible_area_fraction"] - 0.01
         and row["estimated_pieces"] <= best["estimated_pieces"] + 1
+        # a runner-up the search put behind for its steep climb along the wire is not split:
+        # fewer pieces would win it back, and its rulings may dip below the bed
+        and not (row.get("steep", False) and not best.get("steep", False))
     )
 
 
@@ -750,7 +753,8 @@ def split_pieces(
         sample spacing; None is allowed.
     direction : DirectionFrame, sequence of DirectionFrame, or DirectionChoice
         Candidate wire directions; with a choice, its ``best`` and ``runner_up`` are both split
-        and the one with fewer pieces kept (ties: smaller max deviation of the final fits).
+        and the one with fewer pieces kept (ties: the smaller max deviation of the final fits in
+        steps of a tenth of the tolerance, then the search's order).
     job : JobProfile
     progress : callable (stage, done, total), optional
     fitter : callable, optional
@@ -847,7 +851,12 @@ def split_pieces(
     built = {}
     for t in tied:
         built[id(t)] = _build(surf, t, target, job, fitter, report, first_id)
-    best = min(tied, key=lambda t: built[id(t)][1])
+    # final deviations within a tenth of the tolerance are alike: the direction search's order
+    # decides there (its best first), which weighs the climb along the wire; a coffer's
+    # chamfer, exact both ways, took the runner-up's oblique wire by a micron and could not
+    # be driven above the bed
+    alike = 0.1 * job.tolerance.surface_mm
+    best = min(tied, key=lambda t: (round(built[id(t)][1] / alike), trials.index(t)))
     pieces, max_dev, findings, bad_area = built[id(best)]
     rows = tuple(
         DirectionRow(

@@ -32,7 +32,10 @@ few samples across a narrow strip passes through them and looks feasible where i
 tapered half-column, its generators along the wire, scored 94 % against 96 % for a wire 30
 degrees off them, which needed strips of 87 mm and left 59 % of the area out of tolerance).
 Among the rest, the best candidate has the largest feasible share (ties within half a
-percent), then the fewest estimated pieces, then the smallest max deviation in steps of a
+percent), then a mean climb along the wire within half of ``MachineSpec.drivable_tilt``
+(steeper rulings, extended to the blank's faces, dip far below the surface: a coffer's
+chamfer cut with the wire 30 degrees off level on a 1000 mm span passed 275 mm below the
+bed), then the fewest estimated pieces, then the smallest max deviation in steps of a
 tenth of the tolerance, then the least climb along the wire (the area-weighted mean slope
 |dy/dz| of the surface along it, in steps of 0.1: level rulings are the easiest to drive,
 and a plane's level lines are where a fabricator would lay the wire; a hipped roof's face
@@ -81,6 +84,7 @@ _TIE = 0.005  # feasible shares closer than this count as equal
 _RUNNER_UP_GAP_DEG = 10.0
 _SEED_STEP_DEG = 0.25  # seeds from the analysis are rounded to this
 _CLIMB_STEP = 0.1  # mean climbs closer than this (about 6 deg) count as equal
+_STEEP_SHARE = 0.5  # a mean climb past this share of the drivable tilt ranks after the rest
 _DEVIATION_STEP = 0.1  # quick-fit deviations closer than this share of the tolerance, alike
 
 
@@ -456,10 +460,17 @@ def search_direction(
     def climb_bin(r: dict) -> int:
         return round(r["climb"] / _CLIMB_STEP)
 
+    # a climb past half the drivable tilt dips the extended rulings far below the surface at
+    # the blank's faces (a coffer's chamfer on a 1000 mm span, its wire 30 deg off level, a
+    # climb of 0.5: 275 mm below the bed), more than the base and a riser make up
+    steep = _STEEP_SHARE * job.machine.drivable_tilt()
+    for r in rows:
+        r["steep"] = bool(r["climb"] > steep)
     rows.sort(
         key=lambda r: (
             r["below_min_width"],
             -round(r["feasible_area_fraction"] / _TIE),
+            r["steep"],
             r["estimated_pieces"],
             dev_bin(r),
             climb_bin(r),
@@ -486,6 +497,13 @@ def search_direction(
             f"the runner-up at {runner['angle_deg']:.0f} deg keeps "
             f"{runner['feasible_area_fraction'] * 100:.1f}% of the area within tolerance "
             f"against {best['feasible_area_fraction'] * 100:.1f}%"
+        )
+    elif runner["steep"] and not best["steep"]:
+        reason = (
+            f"the runner-up at {runner['angle_deg']:.0f} deg keeps as much area within "
+            f"tolerance but the surface climbs along its wire by {runner['climb']:.2f} on "
+            f"average, more than half of what the towers can tilt a ruling to "
+            f"({job.machine.drivable_tilt():.2f}), against {best['climb']:.2f}"
         )
     elif runner["estimated_pieces"] != best["estimated_pieces"]:
         reason = (
