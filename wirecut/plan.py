@@ -304,7 +304,9 @@ def _zoned_layout(
     pieces = tuple(p for p, _ in items)
     split = SplitResult(
         pieces=pieces,
-        findings=tuple(f for s in splits for f in s.findings),
+        # a zone's own strip bound is no bound of the part's (``lower_bound`` is): its
+        # "fewer strips than the bound" notes would only puzzle
+        findings=tuple(f for s in splits for f in s.findings if f.code != "strips-below-bound"),
         infeasible_area_mm2=sum(s.infeasible_area_mm2 for s in splits),
         lower_bound=lower_bound,  # the part's bound, whatever its layout
         directions=tuple(r for s in splits for r in s.directions),

@@ -114,6 +114,7 @@ def test_a_hip_roof_is_planned_zone_by_zone(tmp_path):
     data = _planned(tmp_path, *hip_roof(900.0, 600.0, 30.0, n=13))
     codes = [x["code"] for x in data["findings"]]
     assert codes.count("zoned-directions") == 1
+    assert "strips-below-bound" not in codes  # the zones' own bounds are not the part's
     assert data["summary"]["max_deviation_mm"] < 0.01  # planes, fitted exactly
     assert all(p["gcode"] for p in data["pieces"])
     ids = [p["id"] for p in data["pieces"]]
