@@ -211,3 +211,23 @@ def test_a_steep_runner_up_is_not_split():
     steep = [r for r in choice.table if r["steep"]]
     assert steep and all(r["climb"] > 0.35 for r in steep)
     assert _candidates(choice) == [choice.best]
+
+
+def test_a_coffer_on_a_plain_grid_has_a_zone_per_chamfer():
+    """The same coffer sampled on a plain grid: at two of its corners the hips run across the
+    grid's diagonals and zigzag over the triangles, so no edge there is a crease by the
+    contrast test. The zones are cut at every bent edge instead (10 deg, no contrast): the
+    slivers of triangles along the zigzag join a neighbour, and each chamfer is a zone within
+    2 % of its plane-geometry area."""
+
+    def coffer(x, y):
+        d = np.maximum(np.maximum(np.abs(x) - 600.0, 0.0), np.maximum(np.abs(y) - 350.0, 0.0))
+        return 240.0 + np.minimum(d, 60.0)
+
+    xs = np.unique(np.r_[np.linspace(-1000, 1000, 81), -660, -600, 600, 660])
+    ys = np.unique(np.r_[np.linspace(-750, 750, 61), -410, -350, 350, 410])
+    target, _ = target_from_arrays(*grid_mesh(xs, ys, coffer), JOB)
+    areas = [_plan_area(target, z) for z in crease_zones(target)]
+    expect = [3.0e6 - 1320 * 820, 1200 * 700, 75_600, 75_600, 45_600, 45_600]
+    assert len(areas) == 6
+    assert areas == pytest.approx(expect, rel=0.02)

@@ -7,10 +7,11 @@ one wire direction for the whole roof cuts two faces well and cannot drive the o
 3 m x 2 m roof gave 54 pieces, none of them drivable). Planned one side at a time, each with
 its own direction search and split, the same roof takes 10 pieces, every one exact.
 
-The zones are the connected sides between the target's creases
-(:func:`wirecut.geometry.creases.crease_sides`). A side of less than ``MIN_ZONE_SHARE`` of
+The zones are the connected sides between the target's bent edges (:func:`_bent_sides`: the
+crease angle without the break lines' contrast test, so that a crease zigzagging across the
+triangles still divides them). A side of less than ``MIN_ZONE_SHARE`` of
 the plan area (a narrow chamfer, a step's wall, a sliver between two creases) joins the
-neighbour it shares the most crease length with (a detached one, the largest zone), so that
+neighbour it shares the most bent-edge length with (a detached one, the largest zone), so that
 every face belongs to a zone and
 no zone is too small to be worth a direction of its own. Each zone becomes a target of its
 own (:func:`zone_target`): the same vertices, in the same part frame, with that zone's faces.
@@ -45,19 +46,19 @@ def crease_zones(target: Any) -> list[np.ndarray]:
     """Face indices of each zone of ``target`` (see the module docstring), largest plan area
     first; empty when the creases leave fewer than two zones, or more than ``MAX_SIDES``
     sides."""
-    from wirecut.geometry.creases import crease_sides, sharp_edges
-
-    sides = crease_sides(target)
+    sides = _bent_sides(target)
     if sides is None or not 2 <= sides[0] <= MAX_SIDES:
         return []
-    count, side = sides
+    count, side, bent = sides
     side = side.copy()
     up = np.asarray(target.up, float)
     plan = np.asarray(target.face_areas, float) * np.abs(np.asarray(target.face_normals) @ up)
-    first, second, sharp = sharp_edges(target)
-    fa, fb = (first // 3)[sharp], (second // 3)[sharp]
+    from wirecut.geometry.creases import sharp_edges
+
+    first, second, _ = sharp_edges(target)
+    fa, fb = (first // 3)[bent], (second // 3)[bent]
     v = np.asarray(target.vertices, float)
-    ends = target.edge_table.edges[target.edge_table.counts == 2][sharp]
+    ends = target.edge_table.edges[target.edge_table.counts == 2][bent]
     length = np.linalg.norm(v[ends[:, 1]] - v[ends[:, 0]], axis=1)
     total = float(plan.sum())
     while True:
@@ -83,6 +84,34 @@ def crease_zones(target: Any) -> list[np.ndarray]:
     if len(keep) < 2:
         return []
     return [np.flatnonzero(side == k) for k in keep]
+
+
+def _bent_sides(target: Any) -> tuple[int, np.ndarray, np.ndarray] | None:
+    """(count, side (m,) int, bent (k,) bool) of the target's faces grouped into the connected
+    sides between its bent edges (normals apart by at least
+    :data:`wirecut.geometry.creases.CREASE_DEG`, without the crease test's contrast: a crease
+    that zigzags across the triangles bends each edge it crosses that much, and the sliver of
+    triangles along it becomes small sides that join a neighbour); None when no edge bends,
+    or more than ``CREASE_SHARE`` of them do (a coarse tessellation of a smooth surface)."""
+    from scipy import sparse
+    from scipy.sparse.csgraph import connected_components
+
+    from wirecut.geometry.creases import CREASE_DEG, CREASE_SHARE, sharp_edges
+
+    first, second, _ = sharp_edges(target)
+    if len(first) == 0:
+        return None
+    normals = np.asarray(target.face_normals, float)
+    fa, fb = first // 3, second // 3
+    cos = np.einsum("ij,ij->i", normals[fa], normals[fb])
+    bent = cos <= np.cos(np.radians(CREASE_DEG))
+    if not bent.any() or bent.mean() > CREASE_SHARE:
+        return None
+    m = len(target.faces)
+    keep = ~bent
+    graph = sparse.coo_matrix((np.ones(int(keep.sum())), (fa[keep], fb[keep])), shape=(m, m))
+    count, side = connected_components(graph, directed=False)
+    return int(count), side, bent
 
 
 def zone_target(target: Any, faces: np.ndarray, job: JobProfile):
