@@ -37,6 +37,7 @@ __all__ = [
     "crease_ends",
     "crease_edges",
     "crease_sides",
+    "face_sides",
     "CREASE_SHARE",
     "break_lines",
     "crease_lines",
@@ -115,23 +116,30 @@ sharp_edges = PerTarget(_sharp_edges)
 CREASE_SHARE = 0.2
 
 
-def _crease_sides(target: Any) -> tuple[int, np.ndarray] | None:
-    """(count, side (m,) int) of the target's faces grouped into the connected sides between
-    its creases (scipy's connected components over the face adjacency without the crease
-    edges); None when it has no crease, or more than :data:`CREASE_SHARE` of its inner edges
-    are creases."""
+def face_sides(target: Any, cut: np.ndarray) -> tuple[int, np.ndarray]:
+    """(count, side (m,) int) of the target's faces grouped into the connected sides that the
+    inner edges ``cut`` (k,) bool, in :func:`sharp_edges` order, separate (scipy's connected
+    components over the face adjacency without those edges)."""
     from scipy import sparse
     from scipy.sparse.csgraph import connected_components
 
-    first, second, sharp = sharp_edges(target)
-    if len(first) == 0 or not sharp.any() or sharp.mean() > CREASE_SHARE:
-        return None
+    first, second, _ = sharp_edges(target)
     fa, fb = first // 3, second // 3
     m = len(target.faces)
-    keep = ~sharp
+    keep = ~np.asarray(cut, bool)
     graph = sparse.coo_matrix((np.ones(int(keep.sum())), (fa[keep], fb[keep])), shape=(m, m))
     count, side = connected_components(graph, directed=False)
     return int(count), side
+
+
+def _crease_sides(target: Any) -> tuple[int, np.ndarray] | None:
+    """(count, side (m,) int) of the target's faces grouped into the connected sides between
+    its creases (:func:`face_sides`); None when it has no crease, or more than
+    :data:`CREASE_SHARE` of its inner edges are creases."""
+    first, _, sharp = sharp_edges(target)
+    if len(first) == 0 or not sharp.any() or sharp.mean() > CREASE_SHARE:
+        return None
+    return face_sides(target, sharp)
 
 
 crease_sides = PerTarget(_crease_sides)

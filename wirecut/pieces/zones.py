@@ -46,6 +46,8 @@ def crease_zones(target: Any) -> list[np.ndarray]:
     """Face indices of each zone of ``target`` (see the module docstring), largest plan area
     first; empty when the creases leave fewer than two zones, or more than ``MAX_SIDES``
     sides."""
+    from wirecut.geometry.creases import sharp_edges
+
     sides = _bent_sides(target)
     if sides is None or not 2 <= sides[0] <= MAX_SIDES:
         return []
@@ -53,8 +55,6 @@ def crease_zones(target: Any) -> list[np.ndarray]:
     side = side.copy()
     up = np.asarray(target.up, float)
     plan = np.asarray(target.face_areas, float) * np.abs(np.asarray(target.face_normals) @ up)
-    from wirecut.geometry.creases import sharp_edges
-
     first, second, _ = sharp_edges(target)
     fa, fb = (first // 3)[bent], (second // 3)[bent]
     v = np.asarray(target.vertices, float)
@@ -93,25 +93,18 @@ def _bent_sides(target: Any) -> tuple[int, np.ndarray, np.ndarray] | None:
     that zigzags across the triangles bends each edge it crosses that much, and the sliver of
     triangles along it becomes small sides that join a neighbour); None when no edge bends,
     or more than ``CREASE_SHARE`` of them do (a coarse tessellation of a smooth surface)."""
-    from scipy import sparse
-    from scipy.sparse.csgraph import connected_components
-
-    from wirecut.geometry.creases import CREASE_DEG, CREASE_SHARE, sharp_edges
+    from wirecut.geometry.creases import CREASE_DEG, CREASE_SHARE, face_sides, sharp_edges
 
     first, second, _ = sharp_edges(target)
     if len(first) == 0:
         return None
     normals = np.asarray(target.face_normals, float)
-    fa, fb = first // 3, second // 3
-    cos = np.einsum("ij,ij->i", normals[fa], normals[fb])
+    cos = np.einsum("ij,ij->i", normals[first // 3], normals[second // 3])
     bent = cos <= np.cos(np.radians(CREASE_DEG))
     if not bent.any() or bent.mean() > CREASE_SHARE:
         return None
-    m = len(target.faces)
-    keep = ~bent
-    graph = sparse.coo_matrix((np.ones(int(keep.sum())), (fa[keep], fb[keep])), shape=(m, m))
-    count, side = connected_components(graph, directed=False)
-    return int(count), side, bent
+    count, side = face_sides(target, bent)
+    return count, side, bent
 
 
 def zone_target(target: Any, faces: np.ndarray, job: JobProfile):
