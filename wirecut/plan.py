@@ -201,7 +201,7 @@ def make_plan(
     findings.extend(split.findings)
     findings.extend(getattr(allocation, "findings", ()))
     findings.extend(piece_findings)
-    findings.extend(_outside_pieces(target, plans))
+    findings.extend(_outside_pieces(target, plans, sum(split.fragment_areas_mm2)))
 
     tol = job.tolerance.surface_mm
     for pp in plans:
@@ -284,7 +284,7 @@ def _zoned_layout(
     allocated to the stock together; None when a zone cannot be planned."""
     from wirecut.errors import WirecutError
     from wirecut.geometry.cuttability import analyse_surface
-    from wirecut.pieces.split import SplitResult
+    from wirecut.pieces.split import SplitResult, fragment_finding
     from wirecut.pieces.stock import allocate
     from wirecut.pieces.zones import zone_target
     from wirecut.ruled.sampling import prepare_sampling
@@ -302,16 +302,22 @@ def _zoned_layout(
     except WirecutError:
         return None
     pieces = tuple(p for p, _ in items)
+    fragments = tuple(a for s in splits for a in s.fragment_areas_mm2)
+    # a zone's own strip bound is no bound of the part's (``lower_bound`` is): its "fewer
+    # strips than the bound" notes would only puzzle; the fragments are said once for the part
+    quiet = ("strips-below-bound", "outline-fragments")
+    notes = [f for s in splits for f in s.findings if f.code not in quiet]
+    if fragments:
+        notes.append(fragment_finding(fragments, job))
     split = SplitResult(
         pieces=pieces,
-        # a zone's own strip bound is no bound of the part's (``lower_bound`` is): its
-        # "fewer strips than the bound" notes would only puzzle
-        findings=tuple(f for s in splits for f in s.findings if f.code != "strips-below-bound"),
+        findings=tuple(notes),
         infeasible_area_mm2=sum(s.infeasible_area_mm2 for s in splits),
         lower_bound=lower_bound,  # the part's bound, whatever its layout
         directions=tuple(r for s in splits for r in s.directions),
         footprint_area_mm2=sum(s.footprint_area_mm2 for s in splits),
         cuts_mm=splits[0].cuts_mm,
+        fragment_areas_mm2=fragments,
     )
     allocation = allocate(pieces, job)
     plans, found = _programs(items, allocation, job, progress)
@@ -566,15 +572,16 @@ def _toolpath_json(t) -> dict:
 _OUTSIDE_SHARE = 1e-3
 
 
-def _outside_pieces(target, plans) -> list[Finding]:
+def _outside_pieces(target, plans, fragments_mm2: float = 0.0) -> list[Finding]:
     """An info finding when some of the surface lies in no piece: faces standing vertical on
     the pieces' outlines (a step on a cut between two pieces belongs to neither; their
-    blanks' end faces form it), or regions where nothing was fitted."""
+    blanks' end faces form it), or regions where nothing was fitted. The outline's fragments
+    (``fragments_mm2`` of plan area, ``outline-fragments``) are said already."""
     total = float(getattr(target, "area_mm2", 0.0))
     if not plans or total <= 0:
         return []
     outside = total - sum(float(pp.deviation.area_mm2) for pp in plans)
-    if outside <= _OUTSIDE_SHARE * total:
+    if outside - fragments_mm2 <= _OUTSIDE_SHARE * total:
         return []
     up = np.asarray(target.up, float)
     flat = np.abs(np.asarray(target.face_normals, float) @ up) < 1e-6

@@ -169,3 +169,23 @@ def test_a_skew_hint_never_makes_the_fit_worse():
                      skew_hint=hint)  # fmt: skip
     assert hinted.report.max_abs_mm <= plain.report.max_abs_mm + 1e-9
     assert hinted.cut.is_monotone() and plain.cut.is_monotone()
+
+
+def test_three_samples_and_two_rulings_give_a_finite_cut_without_a_warning():
+    # a sliver of a piece can hold fewer samples than the heights of its two rulings: with
+    # no second differences to tie them, the least-squares start was singular, the cut came
+    # out NaN and the whole plan was refused. It must be a finite cut through the samples
+    # (a plane, y = 300 + 0.1 x + 0.05 z, is exactly a ruled cut), and say nothing on stderr
+    import warnings
+
+    def f(x, z):
+        return 300.0 + 0.1 * x + 0.05 * z
+
+    samples = height_field_samples(f, np.array([10.0, 20.0, 30.0]), np.array([0.0]))
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        fit = fit_cut(samples, -50.0, 50.0, EYE, ToleranceSpec(0.5), x_range=(0.0, 40.0),
+                      ruling_spacing_mm=100.0)  # fmt: skip
+    assert fit.cut.n_rulings == 2
+    assert np.isfinite(fit.cut.left).all() and np.isfinite(fit.cut.right).all()
+    assert fit.report.max_abs_mm < 1e-3

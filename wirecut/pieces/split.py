@@ -63,6 +63,8 @@ __all__ = [
     "COARSE_ACCEPT",
     "fit_budget",
     "prepare_split",
+    "fragment_finding",
+    "FRAGMENT_SHARE",
 ]
 
 #: During the bisection a strip passes when its coarse fit stays within this share of the
@@ -398,6 +400,8 @@ class SplitResult:
         Plan area of the target's footprint, mm^2.
     cuts_mm : (n + 1,) float, mm
         Strip cut positions along the wire (plan coordinate ``p . wire``) of the kept direction.
+    fragment_areas_mm2 : tuple of float
+        Plan areas of the outline's fragments left out of every piece (:func:`_fragments`).
     """
 
     pieces: tuple[Piece, ...]
@@ -407,6 +411,7 @@ class SplitResult:
     directions: tuple[DirectionRow, ...]
     footprint_area_mm2: float
     cuts_mm: np.ndarray
+    fragment_areas_mm2: tuple[float, ...] = ()
 
 
 def split_limits(job: JobProfile) -> tuple[float, float]:
@@ -709,11 +714,73 @@ def _fit(
         return None
 
 
+#: A polygon of the layout under this share of ``min_width_mm`` squared is a fragment: a
+#: tooth of a zigzag outline that a cut line crosses, or a corner the line just clips.
+FRAGMENT_SHARE = 0.25
+
+#: Positions tried for each cut along the sweep, across the room the longest blank leaves.
+_SWEEP_TRIES = 17
+
+
+def _parts(band: Any, sweep: np.ndarray, xs: np.ndarray) -> list[Polygon]:
+    """The connected parts of ``band`` between consecutive sweep cuts ``xs``."""
+    if len(xs) == 2:
+        return polygons_of(band, min_area_mm2=1e-3)
+    out = []
+    for i in range(len(xs) - 1):
+        out += polygons_of(strip(band, sweep, xs[i], xs[i + 1]), min_area_mm2=1e-3)
+    return out
+
+
+def _slivers(parts: list[Polygon], sweep: np.ndarray, job: JobProfile) -> tuple[int, int, int]:
+    """(fragments, parts shorter along the sweep than the minimum width, parts): fewer is
+    better, in that order."""
+    w = job.pieces.min_width_mm
+    small = sum(1 for p in parts if p.area < FRAGMENT_SHARE * w * w)
+    short = sum(1 for p in parts if np.subtract(*extent_along(p, sweep)[::-1]) < w)
+    return small, short, len(parts)
+
+
+def _placed_sweep_cuts(band: Any, sweep: np.ndarray, x0: float, x1: float, job: JobProfile,
+                       limit: float) -> np.ndarray:  # fmt: skip
+    """Cuts along the sweep of a strip ``band``: the fewest parts that fit ``limit``
+    (:func:`sweep_cuts`), each inner cut moved within the room the limit leaves where that
+    makes fewer fragments, short parts or parts (:func:`_slivers`): an equal split can fall
+    a few millimetres beside an edge of the outline that runs across the sweep (a notch, a
+    zigzag boundary) and leave a sliver beyond it. Left to right, each cut with the others
+    held; ties keep the cut nearest its equal position."""
+    margin = job.pieces.sweep_margin_mm
+    xs = sweep_cuts(x0, x1, limit, margin)
+    if len(xs) <= 2:
+        return xs
+    room = limit - 2.0 * margin
+    best = _slivers(_parts(band, sweep, xs), sweep, job)
+    if best == (0, 0, len(xs) - 1):
+        return xs
+    for i in range(1, len(xs) - 1):
+        lo = max(xs[i + 1] - room, xs[i - 1] + 1e-6)
+        hi = min(xs[i - 1] + room, xs[i + 1] - 1e-6)
+        if hi <= lo:
+            continue
+        even = xs[i]
+        tries = sorted(np.linspace(lo, hi, _SWEEP_TRIES), key=lambda x: abs(x - even))
+        keep = even
+        for x in tries:
+            trial = xs.copy()
+            trial[i] = x
+            score = _slivers(_parts(band, sweep, trial), sweep, job)
+            if score < best:
+                best, keep = score, x
+        xs[i] = keep
+    return xs
+
+
 def _layout(
     surf: _Surface, frame: DirectionFrame, cuts: np.ndarray, job: JobProfile
-) -> list[tuple[int, Polygon, float, float]]:
-    """(strip index, polygon, z_lo, z_hi) of every piece: strips, splits along the sweep,
-    connected parts. Neighbours are clipped at the same coordinate, so they share cut lines."""
+) -> tuple[list[tuple[int, Polygon, float, float]], list[Polygon]]:
+    """(pieces, fragments left out). A piece is (strip index, polygon, z_lo, z_hi): strips,
+    splits along the sweep, connected parts; neighbours are clipped at the same coordinate,
+    so they share cut lines. See :func:`_fragments` for what is left out."""
     sweep, wire = plan_axes(frame, surf.up)
     out = []
     for k in range(len(cuts) - 1):
@@ -723,12 +790,59 @@ def _layout(
             continue
         x0, x1 = extent_along(band, sweep)
         # the blank must fit a block with both horizontal sides: a wide strip, a shorter blank
-        xs = sweep_cuts(x0, x1, sweep_limit(job, b - a), job.pieces.sweep_margin_mm)
-        for i in range(len(xs) - 1):
-            part = band if len(xs) == 2 else strip(band, sweep, xs[i], xs[i + 1])
-            for poly in polygons_of(part, min_area_mm2=1e-3):
-                out.append((k, poly, a, b))
-    return out
+        limit = sweep_limit(job, b - a)
+        xs = _placed_sweep_cuts(band, sweep, x0, x1, job, limit)
+        for poly in _parts(band, sweep, xs):
+            out.append((k, poly, a, b))
+    return _fragments(out, sweep, job)
+
+
+def _fragments(items, sweep: np.ndarray, job: JobProfile):
+    """(items, fragments left out). A fragment (under ``FRAGMENT_SHARE`` of the minimum width
+    squared) that shares a stretch of cut line with a piece of its own strip joins it where
+    the blank still fits; one that shares only a strip's cut line, with a piece of the next
+    strip, cannot join it (a blank ends at its strip's faces) and is left out: it is a tooth
+    of a zigzag outline or a clipped corner, too small for a blank and a program of its own.
+    A fragment that touches no other piece (a small island) stays a piece."""
+    w = job.pieces.min_width_mm
+    small = FRAGMENT_SHARE * w * w
+    margin = job.pieces.sweep_margin_mm
+    items = list(items)
+    dropped: list[Polygon] = []
+    for i in sorted(range(len(items)), key=lambda i: items[i][1].area):
+        k, poly, a, b = items[i]
+        if poly is None or poly.area >= small:
+            continue
+        touching = []
+        bx0, by0, bx1, by1 = poly.bounds
+        for j, (k2, other, _, _) in enumerate(items):
+            if j == i or other is None:
+                continue
+            ox0, oy0, ox1, oy1 = other.bounds
+            if ox0 > bx1 + 1e-6 or bx0 > ox1 + 1e-6 or oy0 > by1 + 1e-6 or by0 > oy1 + 1e-6:
+                continue
+            shared = shapely.intersection(poly.boundary, other.boundary).length
+            if shared > 1e-6:
+                touching.append((k2 == k, shared, j))
+        if not touching:
+            continue
+        joined_into = None
+        for same, _, j in sorted(touching, key=lambda t: (not t[0], -t[1], t[2])):
+            if not same:
+                break
+            joined = shapely.union(poly, items[j][1])
+            x0, x1 = extent_along(joined, sweep)
+            if (
+                isinstance(joined, Polygon)
+                and x1 - x0 + 2.0 * margin <= sweep_limit(job, b - a) + 1e-6
+            ):
+                items[j] = (items[j][0], joined, items[j][2], items[j][3])
+                joined_into = j
+                break
+        if joined_into is None:
+            dropped.append(poly)
+        items[i] = (k, None, a, b)
+    return [it for it in items if it[1] is not None], dropped
 
 
 def split_pieces(
@@ -841,9 +955,9 @@ def split_pieces(
                 )  # fmt: skip
                 parts.append(part)
             plan = StripPlan.joined(parts)
-        layout = _layout(surf, frame, plan.cuts, job)
+        layout, dropped = _layout(surf, frame, plan.cuts, job)
         bound = strip_count_bound(hi - lo, _reach(analysis), max_w)
-        trials.append((frame, plan, layout, bound, hints, ridges))
+        trials.append((frame, plan, layout, bound, hints, ridges, dropped))
         report("split", len(trials), len(frames))
 
     fewest = min(len(t[2]) for t in trials)
@@ -869,7 +983,7 @@ def split_pieces(
         )
         for t in trials
     )
-    frame, plan, layout, bound, _, _ = best
+    frame, plan, layout, bound, _, _, dropped = best
     if plan.count < bound:
         findings.append(
             Finding(
@@ -879,6 +993,9 @@ def split_pieces(
                 severity=Severity.INFO,
             )
         )
+    fragments = tuple(float(p.area) for p in dropped)
+    if fragments:
+        findings.append(fragment_finding(fragments, job))
     return SplitResult(
         pieces=tuple(pieces),
         findings=tuple(findings),
@@ -887,12 +1004,27 @@ def split_pieces(
         directions=rows,
         footprint_area_mm2=float(surf.fp.area),
         cuts_mm=plan.cuts,
+        fragment_areas_mm2=fragments,
+    )
+
+
+def fragment_finding(areas: Sequence[float], job: JobProfile) -> Finding:
+    """``outline-fragments`` (info): the fragments :func:`_fragments` left out (their plan
+    areas, mm^2)."""
+    n, w = len(areas), job.pieces.min_width_mm
+    return Finding(
+        "outline-fragments",
+        f"{n} fragment{'s' if n > 1 else ''} of the outline ({sum(areas):.0f} mm^2 in all, "
+        f"each under {FRAGMENT_SHARE * w * w:.0f} mm^2) beyond a cut line belong to no piece: "
+        "teeth of a zigzag outline or corners a cut line clips, too small for a blank of "
+        "their own; trim the mold's edge there or make them good by hand",
+        severity=Severity.INFO,
     )
 
 
 def _build(surf, trial, target, job, fitter, report, first_id: int = 1):
     """Final pieces of one direction: blocks, full-density fits, volumes, findings."""
-    frame, plan, layout, _, hints, ridges = trial
+    frame, plan, layout, _, hints, ridges, _ = trial
     pieces: list[Piece] = []
     findings: list[Finding] = []
     bad_area = 0.0

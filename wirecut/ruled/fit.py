@@ -39,11 +39,12 @@ of local quadratic fits of the samples (:func:`estimate_sweep_curvature`).
 from __future__ import annotations
 
 import math
+import warnings
 from dataclasses import dataclass
 
 import numpy as np
 import scipy.sparse as sp
-from scipy.sparse.linalg import spsolve
+from scipy.sparse.linalg import MatrixRankWarning, spsolve
 
 from wirecut.config import Policy, ToleranceSpec
 from wirecut.errors import JobError
@@ -234,7 +235,20 @@ def _least_squares_heights(a, yt, c, k) -> np.ndarray:
     reg = sp.block_diag([d2, d2]).tocsr()
     lam2 = _SMOOTH**2 * float((c * c).sum()) / max(k, 1)
     lhs = (ac.T @ ac + lam2 * (reg.T @ reg) + 1e-12 * lam2 * sp.eye(2 * k)).tocsc()
-    return np.asarray(spsolve(lhs, ac.T @ (c * yt)), float)
+    rhs = ac.T @ (c * yt)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", MatrixRankWarning)
+        y = np.asarray(spsolve(lhs, rhs), float)
+    if np.isfinite(y).all():
+        return y
+    # fewer samples than the smoothing can tie down (two rulings and three samples: no
+    # second differences at all), where the ridge above is below the rounding of the
+    # normal equations: a ridge that counts, towards the samples' weighted mean height
+    # (bilinear weights sum to one, so a level cut at that height leaves the smoothing and
+    # the rows' sums alone)
+    mean = float(np.sum(c * c * yt) / max(float(np.sum(c * c)), 1e-300))
+    mu = 1e-9 * max(float(np.abs(lhs.diagonal()).max()), 1e-300)
+    return np.asarray(spsolve((lhs + mu * sp.eye(2 * k)).tocsc(), rhs + mu * mean), float)
 
 
 def _merit(report: DeviationReport, policy: Policy) -> float:
