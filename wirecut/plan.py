@@ -261,8 +261,21 @@ def _directed_split(target, analysis, job: JobProfile, progress: Progress, first
     # the split's plan view does not depend on the direction: built while the search runs
     direction = search_direction(target, analysis, job, meanwhile=lambda: prepare_split(target))
     return direction, split_pieces(
-        target, analysis, direction, job, progress=progress, first_id=first_id
-    )
+        target, analysis, direction, job, progress=progress, first_id=first_id,
+        judge=lambda piece: _judged(target, piece, job),
+    )  # fmt: skip
+
+
+def _judged(target, piece, job: JobProfile) -> float | None:
+    """The largest deviation (mm) of ``piece``'s replayed program as :func:`_piece_plan`
+    builds it (as placed, moved along the wire, or on a riser); None without a program."""
+    from wirecut.errors import WirecutError
+
+    try:
+        pp, _ = _piece_plan(target, piece, job)
+    except WirecutError:
+        return None
+    return None if pp.program is None else float(pp.deviation.max_abs_mm)
 
 
 def _layout(target, analysis, job: JobProfile, progress: Progress) -> _Layout:

@@ -188,3 +188,41 @@ def test_cylinder_split_only_where_span_and_travel_force_it() -> None:
     exact = width * (arc + length * (300.0 - R_CYL - base))
     kept = sum(p.extra["kept_volume_mm3"] for p in result.pieces)
     assert kept == pytest.approx(exact, rel=5e-3)
+
+
+def test_a_skewed_cut_the_towers_cannot_drive_is_cut_on_shorter_blanks():
+    # a parabolic trough z = (x - c (y - 300))^2 / 2R whose generators lean c = 0.2 off the
+    # wire (plan y): the exact cut has rulings skewed 0.2 of the blank's width, which the
+    # towers, 1600 mm apart, see as 320 mm between X and U. One blank 1050 mm long then needs
+    # 1050 + 320 mm plus the lead room of the 1200 mm travel; parallel rulings leave half the
+    # sagitta of the section along the wire, c^2 / R * w^2 / 8 / 2 = 0.9 mm over w = 600 mm
+    # (the best line over a parabola's chord errs by half its sag: Chebyshev equioscillation).
+    # With the program stage's judgement given, the piece is cut on two blanks, each driven
+    # within the tolerance
+    from wirecut.config import JobProfile
+    from wirecut.pieces.split import tower_overrun_mm
+    from wirecut.plan import _judged
+
+    job = JobProfile()
+    c, r, w = 0.2, 1000.0, 600.0
+    xs, ys = np.linspace(-525, 525, 106), np.linspace(0, w, 31)
+    target = height_target(xs, ys, lambda x, y: (x - c * (y - w / 2)) ** 2 / (2 * r) + 100, job)
+    alone = split_pieces(target, None, frame(90.0), job)
+    assert len(alone.pieces) == 1
+    (piece,) = alone.pieces
+    assert piece.fit.skewed and piece.fit.report.max_abs_mm < 0.35
+    assert tower_overrun_mm(piece.fit, piece.block, job) > 0.0
+    assert _judged(target, piece, job) is None  # no program
+
+    judge = lambda p: _judged(target, p, job)  # noqa: E731
+    result = split_pieces(target, None, frame(90.0), job, judge=judge)
+    assert len(result.pieces) == 2
+    for p in result.pieces:
+        assert p.fit.report.max_abs_mm < 0.35
+        replayed = _judged(target, p, job)  # the program's own replay
+        assert replayed is not None and replayed < job.tolerance.surface_mm
+    assert_exact_cover(target, result.pieces)
+    (note,) = [f for f in result.findings if f.code == "shorter-for-skew"]
+    assert note.piece == "P01" and "P01 and P02" in note.message
+    flat = float(note.message.split("would leave ")[1].split(" mm")[0])
+    assert flat == pytest.approx(c**2 / r * w**2 / 8 / 2, rel=0.05)

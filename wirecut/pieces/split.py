@@ -64,6 +64,7 @@ __all__ = [
     "fit_budget",
     "prepare_split",
     "fragment_finding",
+    "tower_overrun_mm",
     "FRAGMENT_SHARE",
 ]
 
@@ -671,7 +672,7 @@ def _skew_of(fit: Any, transform: np.ndarray) -> tuple[np.ndarray, np.ndarray] |
 
 def _fit(
     fitter, target, region, block, transform, job, spacing, enough_mm=None, skew_hint=None,
-    ridges=None,
+    ridges=None, parallel=False,
 ):  # fmt: skip
     from wirecut.ruled.sampling import judging_samples, sample_target
 
@@ -686,11 +687,14 @@ def _fit(
     if len(samples) == 0 or np.all(samples.undercut):
         return None
     more = {} if enough_mm is None else {"enough_mm": enough_mm}
+    if parallel:
+        more["correspondence"] = False
+        skew_hint = None
     if skew_hint is not None:
         more["skew_hint"] = skew_hint
     if ridges is not None and len(ridges):  # sweep coordinates: machine x less the shift
         more["knots_at"] = np.asarray(ridges, float) + float(transform[0, 3])
-    if ridges is not None:
+    if ridges is not None and not parallel:
         # creases along the wire but not parallel to it, each followed by a skewed ruling
         # (those parallel to it are the ridges above)
         # as long along the sweep as the strip's pieces will be (``sweep_cuts``)
@@ -855,6 +859,7 @@ def split_pieces(
     fitter: Callable[..., Any] | None = None,
     resolution_mm: float | None = None,
     first_id: int = 1,
+    judge: Callable[[Piece], float | None] | None = None,
 ) -> SplitResult:
     """Split the mold into pieces that one ruled cut each can make within tolerance.
 
@@ -879,6 +884,12 @@ def split_pieces(
     first_id : int
         Number of the first piece (``P01`` for 1): the zones of a part are split one after
         the other and numbered on (:mod:`wirecut.pieces.zones`).
+    judge : callable (Piece) -> float or None, optional
+        The largest deviation (mm) of the replayed program of a piece, None when no program
+        can drive its cut within the machine's travel (the planner's own program stage).
+        Given, a piece whose skewed rulings :func:`tower_overrun_mm` finds past the x travel
+        and that parallel rulings cannot cut within the tolerance is cut shorter along the
+        sweep, where the shorter blanks' skewed cuts can be driven (:func:`_shorter`).
 
     Returns
     -------
@@ -964,7 +975,7 @@ def split_pieces(
     tied = [t for t in trials if len(t[2]) == fewest]
     built = {}
     for t in tied:
-        built[id(t)] = _build(surf, t, target, job, fitter, report, first_id)
+        built[id(t)] = _build(surf, t, target, job, fitter, report, first_id, judge)
     # final deviations within a tenth of the tolerance are alike: the direction search's order
     # decides there (its best first), which weighs the climb along the wire; a coffer's
     # chamfer, exact both ways, took the runner-up's oblique wire by a micron and could not
@@ -1022,86 +1033,194 @@ def fragment_finding(areas: Sequence[float], job: JobProfile) -> Finding:
     )
 
 
-def _build(surf, trial, target, job, fitter, report, first_id: int = 1):
+def tower_overrun_mm(fit: Any, block: Block, job: JobProfile) -> float:
+    """How far (mm) the span of tower positions a cut's rulings need along the sweep exceeds
+    the x travel, with the lead room at both ends (:func:`lead_room_mm`); 0 when they fit
+    somewhere in it. A quick estimate before any program is built: each ruling extended to
+    the two tower planes (similar triangles multiply its skew by the span over the blank's
+    width), its ends on either tower counted."""
+    cut = fit.cut
+    m = job.machine
+    xs = np.concatenate([cut.at_plane(0.0)[:, 0], cut.at_plane(m.span_mm)[:, 0]])
+    width = float(block.z_mm[1] - block.z_mm[0])
+    need = float(xs.max() - xs.min()) + 2.0 * lead_room_mm(job, width)
+    return max(need - float(m.travel_x_mm[1] - m.travel_x_mm[0]), 0.0)
+
+
+#: At most this many blanks along the sweep replace one whose skewed cut cannot be driven.
+_SHORTER_PARTS = 4
+
+
+def _shorter(fit_part, item, one, sweep, job, fitter_parallel, judge, hold):
+    """The pieces (polygon, block, transform, fit) that replace ``one``, the fit of layout
+    ``item``. It is ``one`` itself, unless all of these hold:
+    - its cut is skewed and within the tolerance;
+    - no program can drive it (:func:`tower_overrun_mm`, then ``judge``);
+    - parallel rulings leave more than the fit's share ``hold`` (mm) of the tolerance, and
+      more than the tolerance once driven (``judge``).
+    Then it is the fewest equal parts along the sweep (2 to ``_SHORTER_PARTS``, none shorter
+    than the minimum width) whose own fits, started from its skew, all stay within ``hold``
+    or its own deviation and can be driven; or else the fewest that all stay within the
+    tolerance and can be driven. A shorter blank stands nearer the middle of the travel, and
+    its end rulings swing the towers less far out.
+
+    Returns (pieces, why): ``why`` is None for ``one`` itself, else (the towers' estimated
+    overrun on one blank, mm; the parallel fit's deviation, mm)."""
+    _, poly, a, b = item
+    _, block, transform, fit = one
+    tol = job.tolerance.surface_mm
+
+    def as_piece(f, blk, tf, region) -> Piece:
+        outline = np.asarray(region.exterior.coords)[:-1]
+        return Piece("P00", outline, None, tf, blk, f, stock=None, extra={})
+
+    def fine(f, blk, tf, region, bound) -> bool:
+        if f is None or f.report.max_abs_mm > bound:
+            return False
+        if not getattr(f, "skewed", False) or tower_overrun_mm(f, blk, job) <= 0.0:
+            return True
+        return judge(as_piece(f, blk, tf, region)) is not None
+
+    if fit is None or not getattr(fit, "skewed", False) or fit.report.max_abs_mm > tol:
+        return [one], None
+    if fine(fit, block, transform, poly, tol):
+        return [one], None
+    flat = fitter_parallel(poly, block, transform)
+    if flat is None or flat.report.max_abs_mm <= hold:
+        return [one], None  # parallel rulings do: the program stage refits it so
+    if flat.report.max_abs_mm <= tol:
+        driven = judge(as_piece(flat, block, transform, poly))
+        if driven is not None and driven <= tol:
+            return [one], None  # and they stay within the tolerance once driven
+    why = (tower_overrun_mm(fit, block, job), float(flat.report.max_abs_mm))
+    bound = max(hold, float(fit.report.max_abs_mm))
+    skew = _skew_of(fit, transform)
+    x0, x1 = extent_along(poly, sweep)
+    within = None  # the first parts that are all drivable within the tolerance
+    for n in range(2, _SHORTER_PARTS + 1):
+        if (x1 - x0) / n < job.pieces.min_width_mm:
+            break
+        xs = np.linspace(x0, x1, n + 1)
+        parts = [q for i in range(n) for q in polygons_of(strip(poly, sweep, xs[i], xs[i + 1]),
+                                                          min_area_mm2=1e-3)]  # fmt: skip
+        fitted = [fit_part(q, a, b, skew) for q in parts]
+        if all(fine(f, blk, tf, q, bound) for q, blk, tf, f in fitted):
+            return fitted, why
+        if within is None and all(fine(f, blk, tf, q, tol) for q, blk, tf, f in fitted):
+            within = fitted
+    return ([one], None) if within is None else (within, why)
+
+
+def _build(surf, trial, target, job, fitter, report, first_id: int = 1, judge=None):
     """Final pieces of one direction: blocks, full-density fits, volumes, findings."""
     frame, plan, layout, _, hints, ridges, _ = trial
+    sweep, _ = plan_axes(frame, surf.up)
     pieces: list[Piece] = []
     findings: list[Finding] = []
     bad_area = 0.0
     max_dev = 0.0
     tallest = max(s.size_mm[2] for s in job.stock)
+    hold = fit_budget(job) * job.tolerance.surface_mm
+
+    def fit_part(poly, a, b, hint=None):
+        """(poly, block, transform, fit); ``hint``: a skew to start from (the split's
+        strip's by default), sweep positions in the plan frame (:func:`_skew_of`)."""
+        block, transform = _place(surf, poly, frame, a, b, job)
+        hint = hints.get((a, b)) if hint is None else hint
+        if hint is not None:  # the skew, from its frame to this piece's
+            hint = (hint[0] + transform[0, 3], hint[1])
+        fit = _fit(fitter, target, poly, block, transform, job, None, skew_hint=hint, ridges=ridges)
+        return poly, block, transform, fit
+
+    def parallel(poly, block, transform):
+        return _fit(fitter, target, poly, block, transform, job, None, ridges=ridges, parallel=True)
 
     def final(item):
         _, poly, a, b = item
-        block, transform = _place(surf, poly, frame, a, b, job)
-        hint = hints.get((a, b))
-        if hint is not None:  # the strip's skew, from its frame to this piece's
-            hint = (hint[0] + transform[0, 3], hint[1])
-        fit = _fit(fitter, target, poly, block, transform, job, None, skew_hint=hint, ridges=ridges)
-        return block, transform, fit
+        one = fit_part(poly, a, b)
+        if judge is None:
+            return [one], None
+        return _shorter(fit_part, item, one, sweep, job, parallel, judge, hold)
 
     report("fit", 0, len(layout))
     fits = pmap(final, layout, done=lambda n: report("fit", n, len(layout)))
-    for (k, poly, a, b), (block, transform, fit) in zip(layout, fits, strict=True):
-        if fit is None:
-            continue
-        pid = f"P{len(pieces) + first_id:02d}"
-        tol = job.tolerance.surface_mm
-        # the dense final fit decides where the coarse one of the width search failed
-        ok = bool(plan.feasible[k]) or fit.report.max_abs_mm <= fit_budget(job) * tol
-        if not ok and fit.report.max_abs_mm > tol:
-            bad_area += poly.area
-            findings.append(
-                Finding(
-                    "strip-infeasible",
-                    f"{poly.area / 1e6:.3f} m^2 cannot be cut within {tol:g} mm even at the "
-                    f"minimum width {job.pieces.min_width_mm:g} mm "
-                    f"(max deviation {fit.report.max_abs_mm:.2f} mm)",
-                    piece=pid,
+    for (k, _, a, b), (parts, why) in zip(layout, fits, strict=True):
+        for n_part, (poly, block, transform, fit) in enumerate(parts):
+            if fit is None:
+                continue
+            pid = f"P{len(pieces) + first_id:02d}"
+            tol = job.tolerance.surface_mm
+            if n_part == 0 and why is not None:
+                ids = [f"P{len(pieces) + first_id + i:02d}" for i in range(len(parts))]
+                findings.append(
+                    Finding(
+                        "shorter-for-skew",
+                        f"{', '.join(ids[:-1])} and {ids[-1]} are one piece cut in "
+                        f"{len(parts)} blanks along the sweep: on one blank its skewed rulings "
+                        f"would swing the towers about {why[0]:.0f} mm past the x travel, and "
+                        f"parallel rulings would leave {why[1]:.2f} mm; each shorter blank's "
+                        "own skewed cut can be driven",
+                        piece=pid,
+                        severity=Severity.INFO,
+                    )
                 )
-            )
-        elif not ok:
-            findings.append(
-                Finding(
-                    "thin-lag-margin",
-                    f"at the minimum width {job.pieces.min_width_mm:g} mm the fit deviates up to "
-                    f"{fit.report.max_abs_mm:.2f} mm, more than its share "
-                    f"{fit_budget(job) * tol:.2f} mm of the {tol:g} mm tolerance: less is left "
-                    "for the wire lag",
-                    piece=pid,
-                    severity=Severity.INFO,
+            # the dense final fit decides where the coarse one of the width search failed
+            ok = bool(plan.feasible[k]) or fit.report.max_abs_mm <= fit_budget(job) * tol
+            if not ok and fit.report.max_abs_mm > tol:
+                bad_area += poly.area
+                findings.append(
+                    Finding(
+                        "strip-infeasible",
+                        f"{poly.area / 1e6:.3f} m^2 cannot be cut within {tol:g} mm even at "
+                        f"the minimum width {job.pieces.min_width_mm:g} mm "
+                        f"(max deviation {fit.report.max_abs_mm:.2f} mm)",
+                        piece=pid,
+                    )
                 )
-            )
-        height = block.size_mm[2]
-        if height > tallest:
-            findings.append(
-                Finding(
-                    "blank-too-tall",
-                    f"the blank is {height:.0f} mm high, above every stock height "
-                    f"(at most {tallest:.0f} mm): only a block laid on its side can hold it; "
-                    "the stock findings say whether one does",
-                    piece=pid,
+            elif not ok:
+                findings.append(
+                    Finding(
+                        "thin-lag-margin",
+                        f"at the minimum width {job.pieces.min_width_mm:g} mm the fit deviates "
+                        f"up to {fit.report.max_abs_mm:.2f} mm, more than its share "
+                        f"{fit_budget(job) * tol:.2f} mm of the {tol:g} mm tolerance: less is "
+                        "left for the wire lag",
+                        piece=pid,
+                        severity=Severity.INFO,
+                    )
                 )
-            )
-        if block.y_mm[1] > job.machine.travel_y_mm[1]:
-            findings.append(
-                Finding(
-                    "above-travel",
-                    f"the blank's top at machine y = {block.y_mm[1]:.0f} mm is above the "
-                    f"y travel ({job.machine.travel_y_mm[1]:g} mm)",
-                    piece=pid,
+            height = block.size_mm[2]
+            if height > tallest:
+                findings.append(
+                    Finding(
+                        "blank-too-tall",
+                        f"the blank is {height:.0f} mm high, above every stock height "
+                        f"(at most {tallest:.0f} mm): only a block laid on its side can hold "
+                        "it; the stock findings say whether one does",
+                        piece=pid,
+                    )
                 )
+            if block.y_mm[1] > job.machine.travel_y_mm[1]:
+                findings.append(
+                    Finding(
+                        "above-travel",
+                        f"the blank's top at machine y = {block.y_mm[1]:.0f} mm is above the "
+                        f"y travel ({job.machine.travel_y_mm[1]:g} mm)",
+                        piece=pid,
+                    )
+                )
+            max_dev = max(max_dev, float(fit.report.max_abs_mm))
+            extra = {
+                "strip_mm": (a, b),
+                "feasible": ok,
+                "kept_volume_mm3": surf.kept(poly),
+                "holes_plan": [np.asarray(r.coords)[:-1] for r in poly.interiors],
+                # the final fit's samples are the plan's check samples of this piece (judging
+                # samples of the same outline; no holes to add boundary samples)
+                "fit_on_check_samples": not poly.interiors,
+            }
+            outline = np.asarray(poly.exterior.coords)[:-1]
+            pieces.append(
+                Piece(pid, outline, frame, transform, block, fit, stock=None, extra=extra)
             )
-        max_dev = max(max_dev, float(fit.report.max_abs_mm))
-        extra = {
-            "strip_mm": (a, b),
-            "feasible": ok,
-            "kept_volume_mm3": surf.kept(poly),
-            "holes_plan": [np.asarray(r.coords)[:-1] for r in poly.interiors],
-            # the final fit's samples are the plan's check samples of this piece (judging
-            # samples of the same outline; no holes to add boundary samples)
-            "fit_on_check_samples": not poly.interiors,
-        }
-        outline = np.asarray(poly.exterior.coords)[:-1]
-        pieces.append(Piece(pid, outline, frame, transform, block, fit, stock=None, extra=extra))
     return pieces, max_dev, findings, bad_area
