@@ -4,6 +4,7 @@ of the teeth of a zigzag outline that a cut line crosses."""
 from __future__ import annotations
 
 import numpy as np
+import pytest
 from shapely.geometry import Polygon, box
 from shapes_pieces import quick_job
 
@@ -87,3 +88,40 @@ def test_a_fragment_stays_out_when_joining_would_make_the_blank_too_long():
     kept, dropped = _fragments([(0, left, 0.0, 100.0), (0, corner, 0.0, 100.0)], SWEEP, job)
     assert [p for _, p, _, _ in kept] == [left]
     assert [p.area for p in dropped] == [corner.area]
+
+
+def test_a_zigzag_notch_edge_across_a_strip_line_leaves_its_teeth_out_of_the_split():
+    # a plane 1000 x 2000 mm on a 20 mm grid with a notch x > 500, y > 1410 cut by triangle
+    # centroids: its edge zigzags, and the lower triangle of every cell of the row
+    # 1400..1420 beyond x = 500 stays, touching its neighbours at corners only. The greedy
+    # strips end at y = 1400 (the widest strip, 1400 mm), so those 25 triangles lie in the
+    # second strip's band but touch only the first strip's piece. Each is half a cell,
+    # 200 mm^2 (under a quarter of the 50 mm minimum width squared): left out, not 25 pieces
+    import math
+
+    import shapely
+    from shapes_pieces import grid_mesh
+
+    from wirecut.geometry.frames import DirectionFrame
+    from wirecut.geometry.mesh import target_from_arrays
+    from wirecut.pieces.region import footprint
+    from wirecut.pieces.split import split_pieces
+
+    job = quick_job()
+    v, f = grid_mesh(np.linspace(0, 1000, 51), np.linspace(0, 2000, 101),
+                     lambda x, y: 300 + 0.02 * x + 0.01 * y)  # fmt: skip
+    c = v[f].mean(axis=1)
+    target, _ = target_from_arrays(v, f[~((c[:, 0] > 500) & (c[:, 1] > 1410))], job)
+    frame = DirectionFrame.from_angle(math.radians(90.0), np.array([0.0, 0.0, 1.0]), "below")
+    result = split_pieces(target, None, frame, job)
+    assert np.allclose(result.cuts_mm, [0.0, 1400.0, 2000.0])
+    assert len(result.pieces) == 2
+    assert len(result.fragment_areas_mm2) == 25
+    assert np.allclose(result.fragment_areas_mm2, 200.0)
+    fp = footprint(target.vertices, target.faces, target.up)
+    covered = sum(Polygon(p.region_plan).area for p in result.pieces)
+    assert covered + sum(result.fragment_areas_mm2) == pytest.approx(fp.area, rel=1e-9)
+    assert shapely.union_all([Polygon(p.region_plan) for p in result.pieces]).area == (
+        pytest.approx(covered, rel=1e-9)
+    )
+    assert [f.code for f in result.findings] == ["outline-fragments"]
