@@ -741,8 +741,8 @@ def _slivers(parts: list[Polygon], sweep: np.ndarray, job: JobProfile) -> tuple[
     better, in that order."""
     w = job.pieces.min_width_mm
     small = sum(1 for p in parts if p.area < FRAGMENT_SHARE * w * w)
-    short = sum(1 for p in parts if np.subtract(*extent_along(p, sweep)[::-1]) < w)
-    return small, short, len(parts)
+    lengths = [hi - lo for lo, hi in (extent_along(p, sweep) for p in parts)]
+    return small, sum(1 for length in lengths if length < w), len(parts)
 
 
 def _placed_sweep_cuts(band: Any, sweep: np.ndarray, x0: float, x1: float, job: JobProfile,
@@ -804,10 +804,11 @@ def _layout(
 def _fragments(items, sweep: np.ndarray, job: JobProfile):
     """(items, fragments left out). A fragment (under ``FRAGMENT_SHARE`` of the minimum width
     squared) that shares a stretch of cut line with a piece of its own strip joins it where
-    the blank still fits; one that shares only a strip's cut line, with a piece of the next
-    strip, cannot join it (a blank ends at its strip's faces) and is left out: it is a tooth
-    of a zigzag outline or a clipped corner, too small for a blank and a program of its own.
-    A fragment that touches no other piece (a small island) stays a piece."""
+    the blank still fits. One that cannot join (it shares only a strip's cut line, with a
+    piece of the next strip, and a blank ends at its strip's faces; or the joined blank would
+    be too long) is left out: it is a tooth of a zigzag outline or a clipped corner, too
+    small for a blank and a program of its own. A fragment that touches no other piece (a
+    small island) stays a piece."""
     w = job.pieces.min_width_mm
     small = FRAGMENT_SHARE * w * w
     margin = job.pieces.sweep_margin_mm
