@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 import pytest
 from ruled_shapes import height_field_samples, ruled_samples
@@ -189,3 +191,34 @@ def test_three_samples_and_two_rulings_give_a_finite_cut_without_a_warning():
     assert fit.cut.n_rulings == 2
     assert np.isfinite(fit.cut.left).all() and np.isfinite(fit.cut.right).all()
     assert fit.report.max_abs_mm < 1e-3
+
+
+def test_rulings_past_the_blank_ends_fit_a_piece_as_well_as_its_strip():
+    # a hyperbolic paraboloid y = u w / 300 turned 30 deg in the x-z plane: its rulings skew
+    # tan 30 of the blank's width (87 mm over 150 mm), and the fit of a long strip finds them
+    # (0.025 mm). A 600 mm piece of it whose rulings must end at the blank's ends has to hold
+    # its end rulings' skew down to cover its corners (skew.end_bounds) and fits worse;
+    # allowed to run past the ends by half the strip's skew (the split's pad, through the
+    # waste beyond the outline) it fits as well as the strip
+    ang, k = math.radians(30.0), 300.0
+
+    def f(x, z):
+        u = x * math.cos(ang) + z * math.sin(ang)
+        w = -x * math.sin(ang) + z * math.cos(ang)
+        return 300.0 + u * w / k
+
+    zs = np.linspace(-75, 75, 16)
+    whole = fit_cut(height_field_samples(f, np.linspace(-900, 900, 361), zs), -75.0, 75.0,
+                    EYE, ToleranceSpec(0.5))  # fmt: skip
+    cut = whole.cut
+    hint = (0.5 * (cut.left[:, 0] + cut.right[:, 0]), cut.right[:, 0] - cut.left[:, 0])
+    assert np.abs(hint[1]).max() == pytest.approx(150.0 * math.tan(ang), rel=0.05)
+    part = height_field_samples(f, np.linspace(-300, 300, 121), zs)
+    pad = 0.5 * float(np.abs(hint[1]).max())
+    held = fit_cut(part, -75.0, 75.0, EYE, ToleranceSpec(0.5), x_range=(-325.0, 325.0),
+                   skew_hint=hint)  # fmt: skip
+    padded = fit_cut(part, -75.0, 75.0, EYE, ToleranceSpec(0.5),
+                     x_range=(-325.0 - pad, 325.0 + pad), skew_hint=hint)  # fmt: skip
+    assert padded.report.max_abs_mm <= whole.report.max_abs_mm + 0.01
+    assert held.report.max_abs_mm > padded.report.max_abs_mm + 0.1
+    assert padded.cut.is_monotone()

@@ -672,7 +672,7 @@ def _skew_of(fit: Any, transform: np.ndarray) -> tuple[np.ndarray, np.ndarray] |
 
 def _fit(
     fitter, target, region, block, transform, job, spacing, enough_mm=None, skew_hint=None,
-    ridges=None, parallel=False,
+    ridges=None, parallel=False, x_pad=0.0,
 ):  # fmt: skip
     from wirecut.ruled.sampling import judging_samples, sample_target
 
@@ -711,7 +711,8 @@ def _fit(
             more["crease_lines"] = (x_mid[oblique], skew[oblique])
     try:
         return fitter(
-            samples, block.z_mm[0], block.z_mm[1], transform, job.tolerance, x_range=block.x_mm,
+            samples, block.z_mm[0], block.z_mm[1], transform, job.tolerance,
+            x_range=(block.x_mm[0] - x_pad, block.x_mm[1] + x_pad),
             **more,
         )  # fmt: skip
     except JobError:  # too few reachable samples in the region: nothing a wire can fit
@@ -941,8 +942,8 @@ def split_pieces(
         hints: dict[tuple[float, float], Any] = {}
 
         def feasible(a: float, b: float, hints=hints, probe=probe) -> float:
-            ratio, hints[(a, b)] = probe((a, b))
-            return ratio
+            hints[(a, b)] = probe((a, b))
+            return hints[(a, b)][0]
 
         reach = _reach(analysis)
         guess = None
@@ -952,7 +953,7 @@ def split_pieces(
 
             def feasible_many(pairs, hints=hints, many=many):
                 out = many(pairs)
-                hints.update(zip(pairs, (h for _, h in out), strict=True))
+                hints.update(zip(pairs, out, strict=True))
                 return [r for r, _ in out]
 
             # the strips are searched between the creases along the sweep, which no strip
@@ -1127,11 +1128,31 @@ def _build(surf, trial, target, job, fitter, report, first_id: int = 1, judge=No
         """(poly, block, transform, fit); ``hint``: a skew to start from (the split's
         strip's by default), sweep positions in the plan frame (:func:`_skew_of`)."""
         block, transform = _place(surf, poly, frame, a, b, job)
-        hint = hints.get((a, b)) if hint is None else hint
+        ratio, strip_skew = hints.get((a, b), (None, None))
+        hint = strip_skew if hint is None else hint
         if hint is not None:  # the skew, from its frame to this piece's
             hint = (hint[0] + transform[0, 3], hint[1])
         fit = _fit(fitter, target, poly, block, transform, job, None, skew_hint=hint, ridges=ridges)
-        return poly, block, transform, fit
+        if fit is None or hint is None or ratio is None:
+            return poly, block, transform, fit
+        # a piece of a strip can fit worse than the strip itself: its end rulings must cover
+        # its own corners, which holds their skew down there (``skew.end_bounds``). Where it
+        # does by a tenth of the tolerance, the rulings may run past the blank's ends by half
+        # the strip's skew (through the waste beyond the outline), if the towers can follow
+        pad = 0.5 * float(np.abs(hint[1]).max())
+        if pad < 1.0 or fit.report.max_abs_mm <= ratio * hold + 0.1 * job.tolerance.surface_mm:
+            return poly, block, transform, fit
+        wide = _fit(fitter, target, poly, block, transform, job, None, skew_hint=hint,
+                    ridges=ridges, x_pad=pad)  # fmt: skip
+        if wide is None or wide.report.max_abs_mm >= fit.report.max_abs_mm:
+            return poly, block, transform, fit
+        if tower_overrun_mm(wide, block, job) > 0.0:
+            if judge is None:
+                return poly, block, transform, fit
+            outline = np.asarray(poly.exterior.coords)[:-1]
+            if judge(Piece("P00", outline, None, transform, block, wide, None, {})) is None:
+                return poly, block, transform, fit
+        return poly, block, transform, wide
 
     def parallel(poly, block, transform):
         return _fit(fitter, target, poly, block, transform, job, None, ridges=ridges, parallel=True)
