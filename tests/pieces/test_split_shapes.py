@@ -224,5 +224,5 @@ def test_a_skewed_cut_the_towers_cannot_drive_is_cut_on_shorter_blanks():
     assert_exact_cover(target, result.pieces)
     (note,) = [f for f in result.findings if f.code == "shorter-for-skew"]
     assert note.piece == "P01" and "P01 and P02" in note.message
-    flat = float(note.message.split("would leave ")[1].split(" mm")[0])
+    flat = float(note.message.split("there leaves ")[1].split(" mm")[0])
     assert flat == pytest.approx(c**2 / r * w**2 / 8 / 2, rel=0.05)

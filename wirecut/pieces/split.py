@@ -1053,21 +1053,27 @@ def tower_overrun_mm(fit: Any, block: Block, job: JobProfile) -> float:
 _SHORTER_PARTS = 4
 
 
-def _shorter(fit_part, item, one, sweep, job, fitter_parallel, judge, hold):
+def _shorter(fit_part, item, one, wide, sweep, job, fitter_parallel, judge, hold):
     """The pieces (polygon, block, transform, fit) that replace ``one``, the fit of layout
-    ``item``. It is ``one`` itself, unless all of these hold:
-    - its cut is skewed and within the tolerance;
+    ``item``, when its best cut cannot be driven on one blank.
+
+    The best cut is ``wide`` (a fit whose rulings run past the blank's ends, better than
+    ``one`` but one the towers cannot follow), else ``one``'s own. ``one`` itself stays
+    unless all of these hold:
+    - the best cut is skewed and within the tolerance;
     - no program can drive it (:func:`tower_overrun_mm`, then ``judge``);
-    - parallel rulings leave more than the fit's share ``hold`` (mm) of the tolerance, and
-      more than the tolerance once driven (``judge``).
+    - what can be driven on one blank leaves more than the fit's share ``hold`` (mm) of the
+      tolerance, and more than the tolerance once driven (``judge``): ``one``'s own cut
+      where that is drivable within the tolerance and ``wide`` was the best, else parallel
+      rulings.
     Then it is the fewest equal parts along the sweep (2 to ``_SHORTER_PARTS``, none shorter
-    than the minimum width) whose own fits, started from its skew, all stay within ``hold``
-    or its own deviation and can be driven; or else the fewest that all stay within the
-    tolerance and can be driven. A shorter blank stands nearer the middle of the travel, and
-    its end rulings swing the towers less far out.
+    than the minimum width) whose own fits, started from the best cut's skew, all stay
+    within ``hold`` or the best cut's deviation and can be driven; or else the fewest that
+    all stay within the tolerance and can be driven. A shorter blank stands nearer the
+    middle of the travel, and its end rulings swing the towers less far out.
 
     Returns (pieces, why): ``why`` is None for ``one`` itself, else (the towers' estimated
-    overrun on one blank, mm; the parallel fit's deviation, mm)."""
+    overrun of the best cut on one blank, mm; the deviation of what could be driven, mm)."""
     _, poly, a, b = item
     _, block, transform, fit = one
     tol = job.tolerance.surface_mm
@@ -1083,20 +1089,38 @@ def _shorter(fit_part, item, one, sweep, job, fitter_parallel, judge, hold):
             return True
         return judge(as_piece(f, blk, tf, region)) is not None
 
-    if fit is None or not getattr(fit, "skewed", False) or fit.report.max_abs_mm > tol:
+    def driven_within(f) -> bool:
+        """The fit ``f`` of the whole piece stays within the tolerance once driven."""
+        if f is None:
+            return False
+        if f.report.max_abs_mm <= hold:
+            return True
+        if f.report.max_abs_mm > tol:
+            return False
+        driven = judge(as_piece(f, block, transform, poly))
+        return driven is not None and driven <= tol
+
+    if fit is None:
+        return [one], None
+    best = fit if wide is None else wide
+    if not getattr(best, "skewed", False) or best.report.max_abs_mm > tol:
         return [one], None
     if fine(fit, block, transform, poly, tol):
+        if wide is None:
+            return [one], None
+        drivable = fit
+    else:  # parallel rulings, as the program stage would refit it
+        drivable = fitter_parallel(poly, block, transform)
+        if drivable is not None and driven_within(drivable):
+            return [one], None
+        worse = drivable is None or fit.report.max_abs_mm < drivable.report.max_abs_mm
+        if wide is not None and worse and fine(fit, block, transform, poly, np.inf):
+            drivable = fit  # out of the tolerance, but less so
+    if drivable is None or driven_within(drivable):
         return [one], None
-    flat = fitter_parallel(poly, block, transform)
-    if flat is None or flat.report.max_abs_mm <= hold:
-        return [one], None  # parallel rulings do: the program stage refits it so
-    if flat.report.max_abs_mm <= tol:
-        driven = judge(as_piece(flat, block, transform, poly))
-        if driven is not None and driven <= tol:
-            return [one], None  # and they stay within the tolerance once driven
-    why = (tower_overrun_mm(fit, block, job), float(flat.report.max_abs_mm))
-    bound = max(hold, float(fit.report.max_abs_mm))
-    skew = _skew_of(fit, transform)
+    why = (tower_overrun_mm(best, block, job), float(drivable.report.max_abs_mm))
+    bound = max(hold, float(best.report.max_abs_mm))
+    skew = _skew_of(best, transform)
     x0, x1 = extent_along(poly, sweep)
     within = None  # the first parts that are all drivable within the tolerance
     for n in range(2, _SHORTER_PARTS + 1):
@@ -1105,7 +1129,7 @@ def _shorter(fit_part, item, one, sweep, job, fitter_parallel, judge, hold):
         xs = np.linspace(x0, x1, n + 1)
         parts = [q for i in range(n) for q in polygons_of(strip(poly, sweep, xs[i], xs[i + 1]),
                                                           min_area_mm2=1e-3)]  # fmt: skip
-        fitted = [fit_part(q, a, b, skew) for q in parts]
+        fitted = [fit_part(q, a, b, skew)[0] for q in parts]
         if all(fine(f, blk, tf, q, bound) for q, blk, tf, f in fitted):
             return fitted, why
         if within is None and all(fine(f, blk, tf, q, tol) for q, blk, tf, f in fitted):
@@ -1125,44 +1149,47 @@ def _build(surf, trial, target, job, fitter, report, first_id: int = 1, judge=No
     hold = fit_budget(job) * job.tolerance.surface_mm
 
     def fit_part(poly, a, b, hint=None):
-        """(poly, block, transform, fit); ``hint``: a skew to start from (the split's
-        strip's by default), sweep positions in the plan frame (:func:`_skew_of`)."""
+        """((poly, block, transform, fit), wide): ``hint`` is a skew to start from (the
+        split's strip's by default), sweep positions in the plan frame (:func:`_skew_of`);
+        ``wide`` a better fit whose rulings run past the blank's ends that the towers cannot
+        follow (else None)."""
         block, transform = _place(surf, poly, frame, a, b, job)
         ratio, strip_skew = hints.get((a, b), (None, None))
         hint = strip_skew if hint is None else hint
         if hint is not None:  # the skew, from its frame to this piece's
             hint = (hint[0] + transform[0, 3], hint[1])
         fit = _fit(fitter, target, poly, block, transform, job, None, skew_hint=hint, ridges=ridges)
+        one = (poly, block, transform, fit)
         if fit is None or hint is None or ratio is None:
-            return poly, block, transform, fit
+            return one, None
         # a piece of a strip can fit worse than the strip itself: its end rulings must cover
         # its own corners, which holds their skew down there (``skew.end_bounds``). Where it
         # does by a tenth of the tolerance, the rulings may run past the blank's ends by half
         # the strip's skew (through the waste beyond the outline), if the towers can follow
         pad = 0.5 * float(np.abs(hint[1]).max())
         if pad < 1.0 or fit.report.max_abs_mm <= ratio * hold + 0.1 * job.tolerance.surface_mm:
-            return poly, block, transform, fit
+            return one, None
         wide = _fit(fitter, target, poly, block, transform, job, None, skew_hint=hint,
                     ridges=ridges, x_pad=pad)  # fmt: skip
         if wide is None or wide.report.max_abs_mm >= fit.report.max_abs_mm:
-            return poly, block, transform, fit
+            return one, None
         if tower_overrun_mm(wide, block, job) > 0.0:
             if judge is None:
-                return poly, block, transform, fit
+                return one, None
             outline = np.asarray(poly.exterior.coords)[:-1]
             if judge(Piece("P00", outline, None, transform, block, wide, None, {})) is None:
-                return poly, block, transform, fit
-        return poly, block, transform, wide
+                return one, wide
+        return (poly, block, transform, wide), None
 
     def parallel(poly, block, transform):
         return _fit(fitter, target, poly, block, transform, job, None, ridges=ridges, parallel=True)
 
     def final(item):
         _, poly, a, b = item
-        one = fit_part(poly, a, b)
+        one, wide = fit_part(poly, a, b)
         if judge is None:
             return [one], None
-        return _shorter(fit_part, item, one, sweep, job, parallel, judge, hold)
+        return _shorter(fit_part, item, one, wide, sweep, job, parallel, judge, hold)
 
     report("fit", 0, len(layout))
     fits = pmap(final, layout, done=lambda n: report("fit", n, len(layout)))
@@ -1178,10 +1205,10 @@ def _build(surf, trial, target, job, fitter, report, first_id: int = 1, judge=No
                     Finding(
                         "shorter-for-skew",
                         f"{', '.join(ids[:-1])} and {ids[-1]} are one piece cut in "
-                        f"{len(parts)} blanks along the sweep: on one blank its skewed rulings "
-                        f"would swing the towers about {why[0]:.0f} mm past the x travel, and "
-                        f"parallel rulings would leave {why[1]:.2f} mm; each shorter blank's "
-                        "own skewed cut can be driven",
+                        f"{len(parts)} blanks along the sweep: on one blank its best skewed "
+                        f"rulings would swing the towers about {why[0]:.0f} mm past the x "
+                        f"travel, and the best cut they can follow there leaves "
+                        f"{why[1]:.2f} mm; each shorter blank's own skewed cut can be driven",
                         piece=pid,
                         severity=Severity.INFO,
                     )
