@@ -297,7 +297,8 @@ def _zoned_layout(
     allocated to the stock together; None when a zone cannot be planned."""
     from wirecut.errors import WirecutError
     from wirecut.geometry.cuttability import analyse_surface
-    from wirecut.pieces.split import SplitResult, fragment_finding
+    from wirecut.pieces.layout import fragment_finding
+    from wirecut.pieces.split import SplitResult
     from wirecut.pieces.stock import allocate
     from wirecut.pieces.zones import zone_target
     from wirecut.ruled.sampling import prepare_sampling

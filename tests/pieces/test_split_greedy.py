@@ -105,6 +105,27 @@ def test_last_narrow_strip_is_widened_to_min_width() -> None:
     assert plan.cuts[-1] == pytest.approx(700.0)
 
 
+@pytest.mark.parametrize("feasible_from", [None, 392.0])
+def test_failing_strips_end_at_a_break_line_and_keep_the_minimum_width(feasible_from) -> None:
+    # a segment of 516 mm that ends at a break line, with a grid step of 14 mm and a
+    # minimum width of 100 mm (8 steps, 112 mm): where the surface fails at the minimum
+    # width, strips of 112 mm leave a 12 mm rest at the line. It joined no strip and the
+    # last strip ran 100 mm past the line (the next segment's strips then started inside it,
+    # and a 12 mm strip appeared between them). The rest now joins the strip before
+    if feasible_from is None:
+        oracle = lambda a, b: False  # noqa: E731
+    else:  # the first 392 mm pass (one strip), the rest fails
+        oracle = lambda a, b: b <= feasible_from + 1e-9  # noqa: E731
+    plan = greedy_strips(0.0, 516.0, oracle, 1400.0, 100.0, 14.0, end_is_cut=True)
+    widths = np.diff(plan.cuts)
+    assert plan.cuts[0] == 0.0 and plan.cuts[-1] == pytest.approx(516.0)
+    assert np.all(widths >= 100.0 - 1e-9)
+    assert np.all(widths > 0)
+    if feasible_from is not None:
+        assert plan.cuts[1] == pytest.approx(392.0) and plan.feasible[0]
+    assert not plan.feasible[-1]
+
+
 def test_sweep_cuts_equal_parts() -> None:
     # 2500 mm with 20 mm margins and a 1140 mm limit: ceil(2500 / 1100) = 3 equal parts
     cuts = sweep_cuts(0.0, 2500.0, 1140.0, 20.0)

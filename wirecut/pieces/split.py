@@ -37,6 +37,13 @@ from wirecut.geometry.creases import PARALLEL_SKEW_MM, break_lines, crease_lines
 from wirecut.geometry.frames import DirectionFrame, rigid
 from wirecut.geometry.per_target import PerTarget
 from wirecut.geometry.plan_shapes import triangle_polygons
+from wirecut.pieces.layout import (
+    fragment_finding,
+    fragments,
+    parts_between,
+    placed_sweep_cuts,
+    sweep_cuts,
+)
 from wirecut.pieces.piece import Block, Piece
 from wirecut.pieces.region import (
     extent_along,
@@ -63,9 +70,7 @@ __all__ = [
     "COARSE_ACCEPT",
     "fit_budget",
     "prepare_split",
-    "fragment_finding",
     "tower_overrun_mm",
-    "FRAGMENT_SHARE",
 ]
 
 #: During the bisection a strip passes when its coarse fit stays within this share of the
@@ -264,6 +269,13 @@ def greedy_strips(
             cuts.append(float(hi))
             ok.append(ask(back, hi)[0])
             break
+        if end_is_cut and rest < min_width_mm - 1e-9 and len(cuts) >= 2:
+            # the strip before cannot give up the room (it is at the minimum width, a strip
+            # that failed there): the rest joins it, so that no strip is narrower than the
+            # minimum or crosses the break line
+            cuts[-1] = float(hi)
+            ok[-1] = ask(cuts[-2], hi)[0]
+            break
         whole = rest <= k_max * step + 1e-9
         top = min(k_max, int(math.ceil(rest / step - 1e-9)) - 1)
         if whole and (top < k_min or rest <= guess * step + 1e-9) and ask(a, hi)[0]:
@@ -278,6 +290,8 @@ def greedy_strips(
             break
         if good < k_min:
             b = a + k_min * step
+            if end_is_cut:
+                b = min(b, float(hi))  # a strip ends at the break line, never past it
             cuts.append(b)
             ok.append(False)
             if progress is not None:
@@ -317,19 +331,6 @@ def _aim(ratios: dict[int, float], good: int, bad: int) -> int | None:
         ref = min(upper)
     k_star = int(math.floor(ref * pts[ref] ** (-1.0 / p) + 1e-9))
     return max(k_star, good + 1) if k_star <= good else k_star
-
-
-def sweep_cuts(x0: float, x1: float, max_length_mm: float, margin_mm: float) -> np.ndarray:
-    """Equal split positions (k + 1,) mm along the sweep so each part plus margins fits.
-
-    Each part's length plus ``2 * margin_mm`` must not exceed ``max_length_mm``.
-    Raises ValueError when the margins alone exceed the limit.
-    """
-    room = max_length_mm - 2.0 * margin_mm
-    if room <= 0:
-        raise ValueError("sweep margins exceed the longest blank")
-    n = max(1, int(math.ceil((x1 - x0) / room - 1e-9)))
-    return np.linspace(x0, x1, n + 1)
 
 
 def strip_count_bound(
@@ -719,73 +720,13 @@ def _fit(
         return None
 
 
-#: A polygon of the layout under this share of ``min_width_mm`` squared is a fragment: a
-#: tooth of a zigzag outline that a cut line crosses, or a corner the line just clips.
-FRAGMENT_SHARE = 0.25
-
-#: Positions tried for each cut along the sweep, across the room the longest blank leaves.
-_SWEEP_TRIES = 17
-
-
-def _parts(band: Any, sweep: np.ndarray, xs: np.ndarray) -> list[Polygon]:
-    """The connected parts of ``band`` between consecutive sweep cuts ``xs``."""
-    if len(xs) == 2:
-        return polygons_of(band, min_area_mm2=1e-3)
-    out = []
-    for i in range(len(xs) - 1):
-        out += polygons_of(strip(band, sweep, xs[i], xs[i + 1]), min_area_mm2=1e-3)
-    return out
-
-
-def _slivers(parts: list[Polygon], sweep: np.ndarray, job: JobProfile) -> tuple[int, int, int]:
-    """(fragments, parts shorter along the sweep than the minimum width, parts): fewer is
-    better, in that order."""
-    w = job.pieces.min_width_mm
-    small = sum(1 for p in parts if p.area < FRAGMENT_SHARE * w * w)
-    lengths = [hi - lo for lo, hi in (extent_along(p, sweep) for p in parts)]
-    return small, sum(1 for length in lengths if length < w), len(parts)
-
-
-def _placed_sweep_cuts(band: Any, sweep: np.ndarray, x0: float, x1: float, job: JobProfile,
-                       limit: float) -> np.ndarray:  # fmt: skip
-    """Cuts along the sweep of a strip ``band``: the fewest parts that fit ``limit``
-    (:func:`sweep_cuts`), each inner cut moved within the room the limit leaves where that
-    makes fewer fragments, short parts or parts (:func:`_slivers`): an equal split can fall
-    a few millimetres beside an edge of the outline that runs across the sweep (a notch, a
-    zigzag boundary) and leave a sliver beyond it. Left to right, each cut with the others
-    held; ties keep the cut nearest its equal position."""
-    margin = job.pieces.sweep_margin_mm
-    xs = sweep_cuts(x0, x1, limit, margin)
-    if len(xs) <= 2:
-        return xs
-    room = limit - 2.0 * margin
-    best = _slivers(_parts(band, sweep, xs), sweep, job)
-    if best == (0, 0, len(xs) - 1):
-        return xs
-    for i in range(1, len(xs) - 1):
-        lo = max(xs[i + 1] - room, xs[i - 1] + 1e-6)
-        hi = min(xs[i - 1] + room, xs[i + 1] - 1e-6)
-        if hi <= lo:
-            continue
-        even = xs[i]
-        tries = sorted(np.linspace(lo, hi, _SWEEP_TRIES), key=lambda x: abs(x - even))
-        keep = even
-        for x in tries:
-            trial = xs.copy()
-            trial[i] = x
-            score = _slivers(_parts(band, sweep, trial), sweep, job)
-            if score < best:
-                best, keep = score, x
-        xs[i] = keep
-    return xs
-
-
 def _layout(
     surf: _Surface, frame: DirectionFrame, cuts: np.ndarray, job: JobProfile
 ) -> tuple[list[tuple[int, Polygon, float, float]], list[Polygon]]:
     """(pieces, fragments left out). A piece is (strip index, polygon, z_lo, z_hi): strips,
-    splits along the sweep, connected parts; neighbours are clipped at the same coordinate,
-    so they share cut lines. See :func:`_fragments` for what is left out."""
+    splits along the sweep (:func:`wirecut.pieces.layout.placed_sweep_cuts`), connected
+    parts; neighbours are clipped at the same coordinate, so they share cut lines. The
+    fragments are those :func:`wirecut.pieces.layout.fragments` leaves out."""
     sweep, wire = plan_axes(frame, surf.up)
     out = []
     for k in range(len(cuts) - 1):
@@ -796,59 +737,10 @@ def _layout(
         x0, x1 = extent_along(band, sweep)
         # the blank must fit a block with both horizontal sides: a wide strip, a shorter blank
         limit = sweep_limit(job, b - a)
-        xs = _placed_sweep_cuts(band, sweep, x0, x1, job, limit)
-        for poly in _parts(band, sweep, xs):
+        xs = placed_sweep_cuts(band, sweep, x0, x1, job, limit)
+        for poly in parts_between(band, sweep, xs):
             out.append((k, poly, a, b))
-    return _fragments(out, sweep, job)
-
-
-def _fragments(items, sweep: np.ndarray, job: JobProfile):
-    """(items, fragments left out). A fragment (under ``FRAGMENT_SHARE`` of the minimum width
-    squared) that shares a stretch of cut line with a piece of its own strip joins it where
-    the blank still fits. One that cannot join (it shares only a strip's cut line, with a
-    piece of the next strip, and a blank ends at its strip's faces; or the joined blank would
-    be too long) is left out: it is a tooth of a zigzag outline or a clipped corner, too
-    small for a blank and a program of its own. A fragment that touches no other piece (a
-    small island) stays a piece."""
-    w = job.pieces.min_width_mm
-    small = FRAGMENT_SHARE * w * w
-    margin = job.pieces.sweep_margin_mm
-    items = list(items)
-    dropped: list[Polygon] = []
-    for i in sorted(range(len(items)), key=lambda i: items[i][1].area):
-        k, poly, a, b = items[i]
-        if poly is None or poly.area >= small:
-            continue
-        touching = []
-        bx0, by0, bx1, by1 = poly.bounds
-        for j, (k2, other, _, _) in enumerate(items):
-            if j == i or other is None:
-                continue
-            ox0, oy0, ox1, oy1 = other.bounds
-            if ox0 > bx1 + 1e-6 or bx0 > ox1 + 1e-6 or oy0 > by1 + 1e-6 or by0 > oy1 + 1e-6:
-                continue
-            shared = shapely.intersection(poly.boundary, other.boundary).length
-            if shared > 1e-6:
-                touching.append((k2 == k, shared, j))
-        if not touching:
-            continue
-        joined_into = None
-        for same, _, j in sorted(touching, key=lambda t: (not t[0], -t[1], t[2])):
-            if not same:
-                break
-            joined = shapely.union(poly, items[j][1])
-            x0, x1 = extent_along(joined, sweep)
-            if (
-                isinstance(joined, Polygon)
-                and x1 - x0 + 2.0 * margin <= sweep_limit(job, b - a) + 1e-6
-            ):
-                items[j] = (items[j][0], joined, items[j][2], items[j][3])
-                joined_into = j
-                break
-        if joined_into is None:
-            dropped.append(poly)
-        items[i] = (k, None, a, b)
-    return [it for it in items if it[1] is not None], dropped
+    return fragments(out, sweep, job, lambda width: sweep_limit(job, width))
 
 
 def split_pieces(
@@ -1018,20 +910,6 @@ def split_pieces(
         footprint_area_mm2=float(surf.fp.area),
         cuts_mm=plan.cuts,
         fragment_areas_mm2=fragments,
-    )
-
-
-def fragment_finding(areas: Sequence[float], job: JobProfile) -> Finding:
-    """``outline-fragments`` (info): the fragments :func:`_fragments` left out (their plan
-    areas, mm^2)."""
-    n, w = len(areas), job.pieces.min_width_mm
-    return Finding(
-        "outline-fragments",
-        f"{n} fragment{'s' if n > 1 else ''} of the outline ({sum(areas):.0f} mm^2 in all, "
-        f"each under {FRAGMENT_SHARE * w * w:.0f} mm^2) beyond a cut line belong to no piece: "
-        "teeth of a zigzag outline or corners a cut line clips, too small for a blank of "
-        "their own; trim the mold's edge there or make them good by hand",
-        severity=Severity.INFO,
     )
 
 

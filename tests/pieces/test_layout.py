@@ -1,5 +1,5 @@
-"""Slivers and fragments of the layout: where the cuts along the sweep go, and what becomes
-of the teeth of a zigzag outline that a cut line crosses."""
+"""Slivers and fragments of the layout (``wirecut.pieces.layout``): where the cuts along
+the sweep go, and what becomes of the teeth of a zigzag outline that a cut line crosses."""
 
 from __future__ import annotations
 
@@ -8,15 +8,20 @@ import pytest
 from shapely.geometry import Polygon, box
 from shapes_pieces import quick_job
 
-from wirecut.pieces.split import (
+from wirecut.pieces.layout import (
     FRAGMENT_SHARE,
-    _fragments,
-    _placed_sweep_cuts,
     fragment_finding,
+    fragments,
+    placed_sweep_cuts,
     sweep_cuts,
 )
+from wirecut.pieces.split import sweep_limit
 
 SWEEP = np.array([1.0, 0.0])
+
+
+def limit(job):
+    return lambda width: sweep_limit(job, width)
 
 
 def test_a_sweep_cut_moves_off_a_gap_edge_instead_of_leaving_a_sliver():
@@ -29,7 +34,7 @@ def test_a_sweep_cut_moves_off_a_gap_edge_instead_of_leaving_a_sliver():
     limit = 1100.0 + 2.0 * job.pieces.sweep_margin_mm
     even = sweep_cuts(0.0, 2000.0, limit, job.pieces.sweep_margin_mm)
     assert np.allclose(even, [0, 1000, 2000])
-    xs = _placed_sweep_cuts(band, SWEEP, 0.0, 2000.0, job, limit)
+    xs = placed_sweep_cuts(band, SWEEP, 0.0, 2000.0, job, limit)
     assert 1010.0 <= xs[1] <= 1030.0
     assert xs[0] == 0.0 and xs[-1] == 2000.0
     assert np.all(np.diff(xs) <= limit - 2.0 * job.pieces.sweep_margin_mm + 1e-9)
@@ -39,7 +44,7 @@ def test_sweep_cuts_stay_equal_where_they_leave_no_sliver():
     job = quick_job()
     band = box(0, 0, 2000, 200)
     limit = 1100.0 + 2.0 * job.pieces.sweep_margin_mm
-    xs = _placed_sweep_cuts(band, SWEEP, 0.0, 2000.0, job, limit)
+    xs = placed_sweep_cuts(band, SWEEP, 0.0, 2000.0, job, limit)
     assert np.array_equal(xs, sweep_cuts(0.0, 2000.0, limit, job.pieces.sweep_margin_mm))
 
 
@@ -58,7 +63,7 @@ def test_teeth_across_a_strip_line_are_left_out_and_an_island_stays():
     assert all(t.area < small for t in teeth) and island.area < small
     items = [(0, main0, 0.0, 100.0), (1, teeth[0], 100.0, 200.0), (1, main1, 100.0, 200.0),
              (1, teeth[1], 100.0, 200.0), (1, island, 100.0, 200.0)]  # fmt: skip
-    kept, dropped = _fragments(items, SWEEP, job)
+    kept, dropped = fragments(items, SWEEP, job, limit(job))
     assert [p for _, p, _, _ in kept] == [main0, main1, island]
     assert sorted(p.area for p in dropped) == sorted(t.area for t in teeth)
     note = fragment_finding([p.area for p in dropped], job)
@@ -72,20 +77,20 @@ def test_a_fragment_beyond_a_sweep_cut_joins_its_strip_neighbour():
     job = quick_job()
     left = box(0, 0, 1000, 100)
     corner = box(1000, 0, 1010, 20)
-    kept, dropped = _fragments([(0, left, 0.0, 100.0), (0, corner, 0.0, 100.0)], SWEEP, job)
+    items = [(0, left, 0.0, 100.0), (0, corner, 0.0, 100.0)]
+    kept, dropped = fragments(items, SWEEP, job, limit(job))
     assert dropped == []
     assert len(kept) == 1
     assert abs(kept[0][1].area - left.area - corner.area) < 1e-6
 
 
 def test_a_fragment_stays_out_when_joining_would_make_the_blank_too_long():
-    from wirecut.pieces.split import sweep_limit
-
     job = quick_job()
     long = sweep_limit(job, 100.0) - 2.0 * job.pieces.sweep_margin_mm
     left = box(0, 0, long, 100)
     corner = box(long, 0, long + 10, 20)
-    kept, dropped = _fragments([(0, left, 0.0, 100.0), (0, corner, 0.0, 100.0)], SWEEP, job)
+    items = [(0, left, 0.0, 100.0), (0, corner, 0.0, 100.0)]
+    kept, dropped = fragments(items, SWEEP, job, limit(job))
     assert [p for _, p, _, _ in kept] == [left]
     assert [p.area for p in dropped] == [corner.area]
 
