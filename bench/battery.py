@@ -11,7 +11,8 @@ part's length, so some parts cannot be cut within tolerance at all: the battery 
 crashes, refusals, pieces without programs and fits that come out worse than they should,
 not for a clean sheet. Each plan runs as ``wirecut plan`` in a fresh process; the table gives
 the exit code, the time, the pieces (with a program), the largest replayed deviation, the
-feasible share and the counts of the findings that are not info.
+feasible share and the count of each finding code (plan.json does not carry severities:
+docs/findings.md gives them).
 """
 
 from __future__ import annotations
@@ -144,9 +145,7 @@ def main() -> None:
             if run.returncode != 2 and (work / name / "plan.json").exists():
                 plan = json.loads((work / name / "plan.json").read_text())
                 s = plan["summary"]
-                codes = collections.Counter(
-                    f["code"] for f in plan["findings"] if f.get("severity") != "info"
-                )
+                codes = collections.Counter(f["code"] for f in plan["findings"])
                 cells = [
                     str(s["pieces"]),
                     str(sum(1 for p in plan["pieces"] if p.get("gcode"))),
