@@ -83,6 +83,20 @@ def test_plan_writes_every_interface_key(planned):
     assert not [p for p in out.parent.iterdir() if ".partial-" in p.name]
 
 
+def test_findings_carry_their_severity_and_the_exit_code_follows_it(planned):
+    # the contract's code, piece and message, and the severity (an extension): the exit code
+    # is 1 exactly when some finding needs attention, and the report's table says which
+    _, out, code, data = planned
+    for f in data["findings"]:
+        assert {"code", "piece", "message"} <= set(f)
+        assert f["severity"] in ("info", "attention")
+    assert code == (1 if any(f["severity"] == "attention" for f in data["findings"]) else 0)
+    html = (out / "report.html").read_text("utf-8")
+    assert "<th>severity</th>" in html
+    for f in data["findings"]:
+        assert f"<tr class='{f['severity']}'><td class='code'>{f['code']}</td>" in html
+
+
 def test_saddle_is_cut_within_tolerance_and_volume_matches(planned):
     _, _, _, data = planned
     s = data["summary"]

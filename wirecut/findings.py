@@ -42,8 +42,14 @@ class Finding:
     severity: Severity = Severity.ATTENTION
 
     def to_json(self) -> dict:
-        """The ``findings`` entry of plan.json."""
-        return {"code": self.code, "piece": self.piece, "message": self.message}
+        """The ``findings`` entry of plan.json: the contract's code, piece and message, and
+        the severity (``info`` or ``attention``, an extension of the contract)."""
+        return {
+            "code": self.code,
+            "piece": self.piece,
+            "message": self.message,
+            "severity": self.severity.value,
+        }
 
 
 def needs_attention(findings: list[Finding]) -> bool:

@@ -314,6 +314,7 @@ svg .left { stroke: #2b6a8f; } svg .right { stroke: #c0572b; stroke-dasharray: 5
 svg .left-t { fill: #2b6a8f; } svg .right-t { fill: #c0572b; }
 svg .legend { font-size: 11px; fill: var(--muted); } svg .scale { stroke: #000; stroke-width: 2; }
 .code { font-family: ui-monospace, monospace; }
+table.findings tr.attention td:nth-child(2) { font-weight: 600; }
 .missing { color: var(--muted); font-style: italic; }
 @media print {
   body { max-width: none; padding: 0; font-size: 11pt; }
@@ -377,13 +378,21 @@ def _findings(pj: dict) -> str:
     if not fs:
         return "<p>No findings.</p>"
     rows = "".join(
-        f"<tr><td class='code'>{_E(str(f.get('code', '')))}</td>"
+        f"<tr class='{_E(_severity(f))}'><td class='code'>{_E(str(f.get('code', '')))}</td>"
+        f"<td>{_E(_severity(f))}</td>"
         f"<td>{_E(str(f.get('piece') or 'all'))}</td>"
         f"<td>{_E(str(f.get('message', '')))}</td></tr>"
         for f in fs
     )
-    head = "<tr><th>code</th><th>piece</th><th>what to read</th></tr>"
+    head = "<tr><th>code</th><th>severity</th><th>piece</th><th>what to read</th></tr>"
     return f"<table class='findings'>{head}{rows}</table>"
+
+
+def _severity(finding: dict) -> str:
+    """``attention`` (read it: the CLI exits with 1) or ``info``; a plan.json written before
+    findings carried a severity says neither."""
+    value = str(finding.get("severity", ""))
+    return value if value in ("info", "attention") else "unknown"
 
 
 def _link(out_dir: Path, rel: str | None, label: str) -> str:
