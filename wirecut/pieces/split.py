@@ -946,8 +946,9 @@ def _shorter(fit_part, item, one, wide, sweep, job, fitter_parallel, judge, hold
       rulings.
     Then it is the fewest equal parts along the sweep (2 to ``_SHORTER_PARTS``, none shorter
     than the minimum width) whose own fits, started from the best cut's skew, all stay
-    within ``hold`` or the best cut's deviation and can be driven; or else the fewest that
-    all stay within the tolerance and can be driven. A shorter blank stands nearer the
+    within ``hold`` or the best cut's deviation and whose own programs (``judge``) can all
+    be driven; or else the fewest whose programs all stay within the tolerance once
+    replayed. A shorter blank stands nearer the
     middle of the travel, and its end rulings swing the towers less far out.
 
     Returns (pieces, why): ``why`` is None for ``one`` itself, else (the towers' estimated
@@ -1008,9 +1009,16 @@ def _shorter(fit_part, item, one, wide, sweep, job, fitter_parallel, judge, hold
         parts = [q for i in range(n) for q in polygons_of(strip(poly, sweep, xs[i], xs[i + 1]),
                                                           min_area_mm2=1e-3)]  # fmt: skip
         fitted = [fit_part(q, a, b, skew)[0] for q in parts]
-        if all(fine(f, blk, tf, q, bound) for q, blk, tf, f in fitted):
+        # each part's own program decides, whatever the estimate: a part can fail for the
+        # bed or the y travel as well as for the x travel
+        driven = [
+            None if f is None or f.report.max_abs_mm > tol else judge(as_piece(f, blk, tf, q))
+            for q, blk, tf, f in fitted
+        ]
+        if all(d is not None and f.report.max_abs_mm <= bound
+               for d, (_, _, _, f) in zip(driven, fitted, strict=True)):  # fmt: skip
             return fitted, why
-        if within is None and all(fine(f, blk, tf, q, tol) for q, blk, tf, f in fitted):
+        if within is None and all(d is not None and d <= tol for d in driven):
             within = fitted
     return ([one], None) if within is None else (within, why)
 
