@@ -927,6 +927,12 @@ def tower_overrun_mm(fit: Any, block: Block, job: JobProfile) -> float:
     return max(need - float(m.travel_x_mm[1] - m.travel_x_mm[0]), 0.0)
 
 
+def _trial_piece(region: Polygon, block: Block, transform: np.ndarray, fit: Any) -> Piece:
+    """A piece to put to the planner's judge before the split numbers its pieces."""
+    outline = np.asarray(region.exterior.coords)[:-1]
+    return Piece("P00", outline, None, transform, block, fit, stock=None, extra={})
+
+
 #: At most this many blanks along the sweep replace one whose skewed cut cannot be driven.
 _SHORTER_PARTS = 4
 
@@ -957,16 +963,12 @@ def _shorter(fit_part, item, one, wide, sweep, job, fitter_parallel, judge, hold
     _, block, transform, fit = one
     tol = job.tolerance.surface_mm
 
-    def as_piece(f, blk, tf, region) -> Piece:
-        outline = np.asarray(region.exterior.coords)[:-1]
-        return Piece("P00", outline, None, tf, blk, f, stock=None, extra={})
-
     def fine(f, blk, tf, region, bound) -> bool:
         if f is None or f.report.max_abs_mm > bound:
             return False
         if not getattr(f, "skewed", False) or tower_overrun_mm(f, blk, job) <= 0.0:
             return True
-        return judge(as_piece(f, blk, tf, region)) is not None
+        return judge(_trial_piece(region, blk, tf, f)) is not None
 
     def driven_within(f) -> bool:
         """The fit ``f`` of the whole piece stays within the tolerance once driven."""
@@ -976,7 +978,7 @@ def _shorter(fit_part, item, one, wide, sweep, job, fitter_parallel, judge, hold
             return True
         if f.report.max_abs_mm > tol:
             return False
-        driven = judge(as_piece(f, block, transform, poly))
+        driven = judge(_trial_piece(poly, block, transform, f))
         return driven is not None and driven <= tol
 
     if fit is None:
@@ -1012,7 +1014,7 @@ def _shorter(fit_part, item, one, wide, sweep, job, fitter_parallel, judge, hold
         # each part's own program decides, whatever the estimate: a part can fail for the
         # bed or the y travel as well as for the x travel
         driven = [
-            None if f is None or f.report.max_abs_mm > tol else judge(as_piece(f, blk, tf, q))
+            None if f is None or f.report.max_abs_mm > tol else judge(_trial_piece(q, blk, tf, f))
             for q, blk, tf, f in fitted
         ]
         if all(d is not None and f.report.max_abs_mm <= bound
@@ -1062,8 +1064,7 @@ def _build(surf, trial, target, job, fitter, report, first_id: int = 1, judge=No
         if tower_overrun_mm(wide, block, job) > 0.0:
             if judge is None:
                 return one, None
-            outline = np.asarray(poly.exterior.coords)[:-1]
-            if judge(Piece("P00", outline, None, transform, block, wide, None, {})) is None:
+            if judge(_trial_piece(poly, block, transform, wide)) is None:
                 return one, wide
         return (poly, block, transform, wide), None
 
