@@ -255,15 +255,18 @@ class _Layout(NamedTuple):
 
 def _directed_split(target, analysis, job: JobProfile, progress: Progress, first_id: int = 1):
     """(direction choice, split) of a target: the direction search, then the split."""
-    from wirecut.pieces.split import prepare_split, split_pieces
+    from wirecut.pieces.split import Judge, prepare_split, split_pieces
     from wirecut.ruled.direction import search_direction
 
     # the split's plan view does not depend on the direction: built while the search runs
     direction = search_direction(target, analysis, job, meanwhile=lambda: prepare_split(target))
+    judge = Judge(
+        drivable=lambda piece: _drivable(piece, job),
+        replayed=lambda piece: _judged(target, piece, job),
+    )
     return direction, split_pieces(
-        target, analysis, direction, job, progress=progress, first_id=first_id,
-        judge=lambda piece: _judged(target, piece, job),
-    )  # fmt: skip
+        target, analysis, direction, job, progress=progress, first_id=first_id, judge=judge
+    )
 
 
 def _judged(target, piece, job: JobProfile) -> float | None:
@@ -276,6 +279,20 @@ def _judged(target, piece, job: JobProfile) -> float | None:
     except WirecutError:
         return None
     return None if pp.program is None else float(pp.deviation.max_abs_mm)
+
+
+def _drivable(piece, job: JobProfile) -> bool:
+    """Whether :func:`_piece_plan` finds a program for ``piece`` (as placed, moved along the
+    wire, or on a riser): :func:`_judged` is not None, without the replay."""
+    from wirecut.errors import WirecutError
+
+    from wirecut.gcode.writer import normalize_program
+
+    try:
+        program = _placed_program(piece, job)[1]
+        return program is not None and normalize_program(program, job) is not None
+    except WirecutError:
+        return False
 
 
 def _layout(target, analysis, job: JobProfile, progress: Progress) -> _Layout:
@@ -430,6 +447,22 @@ def _piece_plan(target, piece, job: JobProfile):
     above the bed and inside the travel), the program's text and its in-memory replay."""
     from wirecut.gcode.replay import replay
     from wirecut.gcode.writer import normalize_program, write_gcode
+
+    piece, program, report, findings = _placed_program(piece, job)
+    samples = _piece_samples(target, piece)
+    prediction = text = None
+    if program is not None:
+        program = normalize_program(program, job)  # exactly what the file will say
+        prediction = replay(program, piece, job, samples)
+        text = write_gcode(program, job)
+    return PiecePlan(piece, program, report, prediction, samples, text), list(findings)
+
+
+def _placed_program(piece, job: JobProfile):
+    """(piece, program, report, findings): ``piece``'s program as built (moved along the wire
+    or the sweep when the towers would leave the travel, lifted on a riser when nothing else
+    keeps the wire above the bed and inside the travel), the piece moved where it went;
+    ``program`` None when none can be driven."""
     from wirecut.toolpath.build import build_program
 
     program, report, findings = build_program(piece, job)
@@ -446,13 +479,7 @@ def _piece_plan(target, piece, job: JobProfile):
     lift = float(getattr(report, "riser_mm", 0.0) or 0.0) if report is not None else 0.0
     if shift != 0.0 or lift != 0.0:
         piece = _shifted(piece, np.array([shift, lift, 0.0]))
-    samples = _piece_samples(target, piece)
-    prediction = text = None
-    if program is not None:
-        program = normalize_program(program, job)  # exactly what the file will say
-        prediction = replay(program, piece, job, samples)
-        text = write_gcode(program, job)
-    return PiecePlan(piece, program, report, prediction, samples, text), list(findings)
+    return piece, program, report, findings
 
 
 def _replaced_along_wire(piece, job: JobProfile, positions: int = 8):

@@ -200,8 +200,8 @@ def test_a_skewed_cut_the_towers_cannot_drive_is_cut_on_shorter_blanks():
     # With the program stage's judgement given, the piece is cut on two blanks, each driven
     # within the tolerance
     from wirecut.config import JobProfile
-    from wirecut.pieces.split import tower_overrun_mm
-    from wirecut.plan import _judged
+    from wirecut.pieces.split import Judge, tower_overrun_mm
+    from wirecut.plan import _drivable, _judged
 
     job = JobProfile()
     c, r, w = 0.2, 1000.0, 600.0
@@ -213,8 +213,9 @@ def test_a_skewed_cut_the_towers_cannot_drive_is_cut_on_shorter_blanks():
     assert piece.fit.skewed and piece.fit.report.max_abs_mm < 0.35
     assert tower_overrun_mm(piece.fit, piece.block, job) > 0.0
     assert _judged(target, piece, job) is None  # no program
+    assert not _drivable(piece, job)
 
-    judge = lambda p: _judged(target, p, job)  # noqa: E731
+    judge = Judge(lambda p: _drivable(p, job), lambda p: _judged(target, p, job))
     result = split_pieces(target, None, frame(90.0), job, judge=judge)
     assert len(result.pieces) == 2
     for p in result.pieces:

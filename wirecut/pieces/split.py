@@ -60,6 +60,7 @@ __all__ = [
     "StripPlan",
     "DirectionRow",
     "SplitResult",
+    "Judge",
     "greedy_strips",
     "sweep_cuts",
     "strip_count_bound",
@@ -753,7 +754,7 @@ def split_pieces(
     fitter: Callable[..., Any] | None = None,
     resolution_mm: float | None = None,
     first_id: int = 1,
-    judge: Callable[[Piece], float | None] | None = None,
+    judge: Judge | None = None,
 ) -> SplitResult:
     """Split the mold into pieces that one ruled cut each can make within tolerance.
 
@@ -778,10 +779,10 @@ def split_pieces(
     first_id : int
         Number of the first piece (``P01`` for 1): the zones of a part are split one after
         the other and numbered on (:mod:`wirecut.pieces.zones`).
-    judge : callable (Piece) -> float or None, optional
-        The largest deviation (mm) of the replayed program of a piece, None when no program
-        can drive its cut within the machine's travel (the planner's own program stage).
-        Given, a piece whose skewed rulings :func:`tower_overrun_mm` finds past the x travel
+    judge : Judge, optional
+        The planner's own program stage put to a trial piece: whether a program can drive its
+        cut within the machine's travel, and the largest deviation (mm) of that program's
+        replay. Given, a piece whose skewed rulings :func:`tower_overrun_mm` finds past the x travel
         and that parallel rulings cannot cut within the tolerance is cut shorter along the
         sweep, where the shorter blanks' skewed cuts can be driven (:func:`_shorter`).
 
@@ -927,6 +928,20 @@ def tower_overrun_mm(fit: Any, block: Block, job: JobProfile) -> float:
     return max(need - float(m.travel_x_mm[1] - m.travel_x_mm[0]), 0.0)
 
 
+@dataclass(frozen=True)
+class Judge:
+    """The planner's program stage, put to a trial piece (:func:`_trial_piece`) by the split.
+
+    ``drivable(piece) -> bool``: a program can drive the piece's cut within the machine's
+    travel (as placed, moved along the wire or on a riser); ``replayed(piece) -> float or
+    None``: the largest deviation (mm) of that program's replay, None without a program. The
+    replay is most of the cost, so the split asks ``drivable`` where that is all it needs.
+    """
+
+    drivable: Callable[[Piece], bool]
+    replayed: Callable[[Piece], float | None]
+
+
 def _trial_piece(region: Polygon, block: Block, transform: np.ndarray, fit: Any) -> Piece:
     """A piece to put to the planner's judge before the split numbers its pieces."""
     outline = np.asarray(region.exterior.coords)[:-1]
@@ -968,7 +983,7 @@ def _shorter(fit_part, item, one, wide, sweep, job, fitter_parallel, judge, hold
             return False
         if not getattr(f, "skewed", False) or tower_overrun_mm(f, blk, job) <= 0.0:
             return True
-        return judge(_trial_piece(region, blk, tf, f)) is not None
+        return judge.drivable(_trial_piece(region, blk, tf, f))
 
     def driven_within(f) -> bool:
         """The fit ``f`` of the whole piece stays within the tolerance once driven."""
@@ -978,7 +993,7 @@ def _shorter(fit_part, item, one, wide, sweep, job, fitter_parallel, judge, hold
             return True
         if f.report.max_abs_mm > tol:
             return False
-        driven = judge(_trial_piece(poly, block, transform, f))
+        driven = judge.replayed(_trial_piece(poly, block, transform, f))
         return driven is not None and driven <= tol
 
     if fit is None:
@@ -1013,15 +1028,16 @@ def _shorter(fit_part, item, one, wide, sweep, job, fitter_parallel, judge, hold
         fitted = [fit_part(q, a, b, skew)[0] for q in parts]
         # each part's own program decides, whatever the estimate: a part can fail for the
         # bed or the y travel as well as for the x travel
-        driven = [
-            None if f is None or f.report.max_abs_mm > tol else judge(_trial_piece(q, blk, tf, f))
-            for q, blk, tf, f in fitted
-        ]
-        if all(d is not None and f.report.max_abs_mm <= bound
-               for d, (_, _, _, f) in zip(driven, fitted, strict=True)):  # fmt: skip
+        trials = [None if f is None or f.report.max_abs_mm > tol else _trial_piece(q, blk, tf, f)
+                  for q, blk, tf, f in fitted]  # fmt: skip
+        drivable = [t is not None and judge.drivable(t) for t in trials]
+        if all(d and f.report.max_abs_mm <= bound
+               for d, (_, _, _, f) in zip(drivable, fitted, strict=True)):  # fmt: skip
             return fitted, why
-        if within is None and all(d is not None and d <= tol for d in driven):
-            within = fitted
+        if within is None and all(drivable):  # only then are the replays worth their time
+            driven = [judge.replayed(t) for t in trials]
+            if all(d is not None and d <= tol for d in driven):
+                within = fitted
     return ([one], None) if within is None else (within, why)
 
 
@@ -1064,7 +1080,7 @@ def _build(surf, trial, target, job, fitter, report, first_id: int = 1, judge=No
         if tower_overrun_mm(wide, block, job) > 0.0:
             if judge is None:
                 return one, None
-            if judge(_trial_piece(poly, block, transform, wide)) is None:
+            if not judge.drivable(_trial_piece(poly, block, transform, wide)):
                 return one, wide
         return (poly, block, transform, wide), None
 
