@@ -285,7 +285,6 @@ def _drivable(piece, job: JobProfile) -> bool:
     """Whether :func:`_piece_plan` finds a program for ``piece`` (as placed, moved along the
     wire, or on a riser): :func:`_judged` is not None, without the replay."""
     from wirecut.errors import WirecutError
-
     from wirecut.gcode.writer import normalize_program
 
     try:

@@ -222,3 +222,30 @@ def test_rulings_past_the_blank_ends_fit_a_piece_as_well_as_its_strip():
     assert padded.report.max_abs_mm <= whole.report.max_abs_mm + 0.01
     assert held.report.max_abs_mm > padded.report.max_abs_mm + 0.1
     assert padded.cut.is_monotone()
+
+
+@pytest.mark.parametrize(("n", "k", "seed"), [(3000, 30, 0), (200, 12, 1), (40, 3, 2), (9, 5, 3)])
+def test_the_banded_least_squares_start_matches_sparse_lu_on_the_whole_normal_equations(n, k, seed):
+    # the start's normal equations, assembled as sparse products and solved by SciPy's
+    # sparse LU (SuperLU, ``spsolve``), an independent solver of the same system, against
+    # the banded Cholesky on the interleaved heights
+    import scipy.sparse as sp
+    from scipy.sparse.linalg import spsolve
+
+    from wirecut.ruled.fit import _SMOOTH, _least_squares_heights
+    from wirecut.ruled.skew import second_difference
+
+    rng = np.random.default_rng(seed)
+    j = rng.integers(0, k - 1, n)
+    w, t = rng.random(n), rng.random(n)
+    cols = np.column_stack([j, k + j, j + 1, k + j + 1])
+    vals = np.column_stack([(1 - w) * (1 - t), (1 - w) * t, w * (1 - t), w * t])
+    a = sp.csr_matrix((vals.ravel(), (np.repeat(np.arange(n), 4), cols.ravel())), (n, 2 * k))
+    yt, c = rng.normal(400.0, 30.0, n), rng.uniform(0.5, 1.5, n)
+    ac = sp.diags(c) @ a
+    reg = sp.block_diag([second_difference(k)] * 2)
+    lam2 = _SMOOTH**2 * float((c * c).sum()) / k
+    lhs = (ac.T @ ac + lam2 * (reg.T @ reg) + 1e-12 * lam2 * sp.eye(2 * k)).tocsc()
+    reference = spsolve(lhs, ac.T @ (c * yt))
+    y = _least_squares_heights((cols, vals), yt, c, k)
+    assert np.abs(y - reference).max() < 1e-7

@@ -39,12 +39,11 @@ of local quadratic fits of the samples (:func:`estimate_sweep_curvature`).
 from __future__ import annotations
 
 import math
-import warnings
 from dataclasses import dataclass
 
 import numpy as np
 import scipy.sparse as sp
-from scipy.sparse.linalg import MatrixRankWarning, spsolve
+from scipy.linalg import LinAlgError, cho_solve_banded, cholesky_banded
 
 from wirecut.config import Policy, ToleranceSpec
 from wirecut.errors import JobError
@@ -216,30 +215,86 @@ def ruling_spacing_for(tolerance_mm: float, sweep_curvature_per_mm: float) -> fl
 
 def _design(
     cut: RuledCut, x: np.ndarray, z: np.ndarray, located=None
-) -> tuple[sp.csr_matrix, np.ndarray]:
-    """Sparse (n, 2K) matrix A with cut height = A @ [yL, yR], and the inside mask.
-    ``located``: ``cut.strip_of(x, z)`` when the caller has it."""
+) -> tuple[sp.csr_matrix, np.ndarray, tuple[np.ndarray, np.ndarray]]:
+    """Sparse (n, 2K) matrix A with cut height = A @ [yL, yR], the inside mask, and A's
+    entries as (columns (n, 4) int, values (n, 4)): each sample's bilinear weights on the
+    rulings j and j + 1 at both faces. ``located``: ``cut.strip_of(x, z)`` when the caller
+    has it."""
     j, w, t, inside = cut.strip_of(x, z) if located is None else located
     k = cut.n_rulings
     n = len(x)
     rows = np.repeat(np.arange(n), 4)
-    cols = np.column_stack([j, k + j, j + 1, k + j + 1]).ravel()
-    vals = np.column_stack([(1 - w) * (1 - t), (1 - w) * t, w * (1 - t), w * t]).ravel()
-    return sp.csr_matrix((vals, (rows, cols)), shape=(n, 2 * k)), inside
+    cols = np.column_stack([j, k + j, j + 1, k + j + 1])
+    vals = np.column_stack([(1 - w) * (1 - t), (1 - w) * t, w * (1 - t), w * t])
+    a = sp.csr_matrix((vals.ravel(), (rows, cols.ravel())), shape=(n, 2 * k))
+    return a, inside, (cols, vals)
 
 
-def _least_squares_heights(a, yt, c, k) -> np.ndarray:
-    """Step 1: min sum c_i^2 (a_i y - yt_i)^2 + smoothing, by the sparse normal equations."""
-    ac = sp.diags(c) @ a
-    d2 = second_difference(k)
-    reg = sp.block_diag([d2, d2]).tocsr()
+#: Upper bandwidth of the least-squares start's normal equations with the heights
+#: interleaved (yL_0, yR_0, yL_1, ...): a sample ties rulings j and j + 1 at both faces
+#: (3), the second differences tie j and j + 2 on each face (4).
+_BAND = 4
+
+
+def _interleaved(col: np.ndarray, k: int) -> np.ndarray:
+    """Position of the height ``col`` of [yL, yR] (2k,) among the interleaved heights."""
+    return np.where(col < k, 2 * col, 2 * (col - k) + 1)
+
+
+def _second_difference_gram(k: int) -> np.ndarray:
+    """Diagonals (3, k) of D2^T D2 (the (k - 2, k) second differences): main, first and
+    second (the last entries of the off-diagonals unused)."""
+    out = np.zeros((3, k))
+    if k < 3:
+        return out
+    g = second_difference(k).toarray()
+    g = g.T @ g
+    for off in range(3):
+        out[off, : k - off] = np.diagonal(g, off)
+    return out
+
+
+def _least_squares_heights(entries, yt, c, k) -> np.ndarray:
+    """Step 1: min sum c_i^2 (a_i y - yt_i)^2 + smoothing, by the normal equations.
+
+    ``entries`` are the design's (columns (n, 4), values (n, 4)) (:func:`_design`). The
+    normal equations are banded once the two faces' heights are interleaved (bandwidth
+    ``_BAND``), and solved by a banded Cholesky factorisation
+    (``scipy.linalg.cholesky_banded``, LAPACK ``pbtrf``): a few bincounts and an O(k)
+    solve where a sparse product and LU (``spsolve``) took most of a small fit's start.
+    """
+    cols, vals = entries
+    m = 2 * k
+    pos = _interleaved(cols, k)  # (n, 4), increasing along each row
+    cw = (c * c)[:, None] * vals  # (n, 4)
+    ab = np.zeros((_BAND + 1, m))
+    for u in range(4):
+        for v in range(u, 4):
+            # M[pos_u, pos_v] (pos_u <= pos_v) sits in the upper band form at
+            # ab[_BAND + pos_u - pos_v, pos_v]
+            ab[_BAND - (v - u)] += np.bincount(pos[:, v], cw[:, u] * vals[:, v], minlength=m)
     lam2 = _SMOOTH**2 * float((c * c).sum()) / max(k, 1)
-    lhs = (ac.T @ ac + lam2 * (reg.T @ reg) + 1e-12 * lam2 * sp.eye(2 * k)).tocsc()
-    rhs = ac.T @ (c * yt)
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore", MatrixRankWarning)
-        y = np.asarray(spsolve(lhs, rhs), float)
-    if np.isfinite(y).all():
+    gram = lam2 * _second_difference_gram(k)
+    for off in range(3):  # each face's heights sit two apart when interleaved
+        for face in range(2):
+            ab[_BAND - 2 * off, face + 2 * off :: 2] += gram[off, : k - off]
+    ab[_BAND] += 1e-12 * lam2
+    rhs = np.bincount(pos.ravel(), (cw * yt[:, None]).ravel(), minlength=m)
+    back = _interleaved(np.arange(m), k)  # [yL, yR] index -> interleaved position
+
+    def solve(band: np.ndarray, b: np.ndarray) -> np.ndarray | None:
+        try:
+            u = cholesky_banded(band, lower=False, check_finite=False)
+        except (LinAlgError, ValueError):
+            return None
+        piv = u[_BAND] ** 2
+        scale = max(float(band[_BAND].max()), 1e-300)
+        if not np.all(np.isfinite(piv)) or piv.min() <= 1e-12 * scale:
+            return None  # singular to the rounding: the heights are not tied down
+        return cho_solve_banded((u, False), b, check_finite=False)[back]
+
+    y = solve(ab, rhs)
+    if y is not None and np.isfinite(y).all():
         return y
     # fewer samples than the smoothing can tie down (two rulings and three samples: no
     # second differences at all), where the ridge above is below the rounding of the
@@ -247,8 +302,13 @@ def _least_squares_heights(a, yt, c, k) -> np.ndarray:
     # (bilinear weights sum to one, so a level cut at that height leaves the smoothing and
     # the rows' sums alone)
     mean = float(np.sum(c * c * yt) / max(float(np.sum(c * c)), 1e-300))
-    mu = 1e-9 * max(float(np.abs(lhs.diagonal()).max()), 1e-300)
-    return np.asarray(spsolve((lhs + mu * sp.eye(2 * k)).tocsc(), rhs + mu * mean), float)
+    mu = 1e-9 * max(float(np.abs(ab[_BAND]).max()), 1e-300)
+    ridged = ab.copy()
+    ridged[_BAND] += mu
+    y = solve(ridged, rhs + mu * mean)
+    if y is None:
+        raise JobError("the least-squares start of a ruled fit is singular")
+    return y
 
 
 def _merit(report: DeviationReport, policy: Policy) -> float:
@@ -388,8 +448,8 @@ def fit_cut(
             knots - s / 2, knots + s / 2, np.zeros(k), np.zeros(k), z_left, z_right, part_to_machine
         )
         located = flat.strip_of(x, z)
-        a, _ = _design(flat, x, z, located)
-        y1 = _least_squares_heights(a, yt, c, k) if y_start is None else y_start
+        a, _, entries = _design(flat, x, z, located)
+        y1 = _least_squares_heights(entries, yt, c, k) if y_start is None else y_start
         j, _, t, _ = located
         cell = cells(j, t)
         y2, eps, rounds = equal_error(a, yt, ny_t, cell, y1, policy, tol)
@@ -431,8 +491,8 @@ def fit_cut(
         for m in (s_base / width, scan / width, hi, lo):
             s = monotone_seed(m * width, gaps, end_lb, end_ub)
             flat = ruled_cut(knots - s / 2, knots + s / 2, s_zero, s_zero, z_left, z_right, None)
-            a, _ = _design(flat, xs_, zs_)
-            y1 = _least_squares_heights(a, ys_, cs_, k)
+            a, _, entries = _design(flat, xs_, zs_)
+            y1 = _least_squares_heights(entries, ys_, cs_, k)
             tried.append((float(np.sum((cs_ * (a @ y1 - ys_)) ** 2)), s, y1))
         cost, s, y1 = min(tried[1:], key=lambda e: e[0])
         starts = []  # (skew, heights, refine by the joint solver first)
@@ -446,8 +506,8 @@ def fit_cut(
             if np.any(s):
                 flat = ruled_cut(knots - s / 2, knots + s / 2, s_zero, s_zero, z_left, z_right,
                                  None)  # fmt: skip
-                a, _ = _design(flat, xs_, zs_)
-                y_h = _least_squares_heights(a, ys_, cs_, k)
+                a, _, entries = _design(flat, xs_, zs_)
+                y_h = _least_squares_heights(entries, ys_, cs_, k)
                 # as it is (so the fit is never worse than that skew) and refined
                 starts += [(s, y_h, False), (s.copy(), y_h, True)]
         pts_sub = np.column_stack([x, yt, z])[sub]
