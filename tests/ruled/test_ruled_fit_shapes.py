@@ -249,3 +249,33 @@ def test_the_banded_least_squares_start_matches_sparse_lu_on_the_whole_normal_eq
     reference = spsolve(lhs, ac.T @ (c * yt))
     y = _least_squares_heights((cols, vals), yt, c, k)
     assert np.abs(y - reference).max() < 1e-7
+
+
+def test_no_ruling_leans_further_than_the_slope_the_machine_allows():
+    # a hyperbolic paraboloid y = u w / k turned 40 deg in the x-z plane is ruled along
+    # lines at 40 deg to the wire (slope tan 40 = 0.84): a free fit finds that lean and fits
+    # to a few hundredths of a mm. With the towers 1600 mm apart and 1200 mm of travel,
+    # such a ruling's tower ends lie 0.84 * 1600 = 1340 mm apart along the sweep, which no
+    # blank leaves room for (MachineSpec.drivable_slope: 0.65 beside a 100 mm blank, 30 mm
+    # clearances). Held to that slope, no ruling leans further, and the fit is worse for it
+    from wirecut.config import MachineSpec
+
+    ang, k = math.radians(40.0), 300.0
+
+    def f(x, z):
+        u = x * math.cos(ang) + z * math.sin(ang)
+        w = -x * math.sin(ang) + z * math.cos(ang)
+        return 300.0 + u * w / k
+
+    samples = height_field_samples(f, np.linspace(-300, 300, 121), np.linspace(-75, 75, 16))
+    free = fit_cut(samples, -75.0, 75.0, EYE, ToleranceSpec(0.5), x_range=(-400.0, 400.0))
+    lean = np.abs(free.cut.right[:, 0] - free.cut.left[:, 0]) / 150.0
+    assert lean.max() == pytest.approx(math.tan(ang), rel=0.05)
+    cap = MachineSpec().drivable_slope(100.0)
+    assert cap == pytest.approx((1200.0 - 100.0 - 2 * 30.0) / 1600.0)  # 0.65
+    held = fit_cut(samples, -75.0, 75.0, EYE, ToleranceSpec(0.5), x_range=(-400.0, 400.0),
+                   max_slope=cap)  # fmt: skip
+    lean = np.abs(held.cut.right[:, 0] - held.cut.left[:, 0]) / 150.0
+    assert lean.max() <= cap + 1e-9
+    assert held.report.max_abs_mm > free.report.max_abs_mm + 0.05
+    assert held.cut.is_monotone()

@@ -692,6 +692,10 @@ def _fit(
     if parallel:
         more["correspondence"] = False
         skew_hint = None
+    else:
+        # no blank along the sweep is shorter than the minimum width (``_shorter``): a ruling
+        # leaning further than the towers can follow beside that one drives on none
+        more["max_slope"] = job.machine.drivable_slope(job.pieces.min_width_mm)
     if skew_hint is not None:
         more["skew_hint"] = skew_hint
     if ridges is not None and len(ridges):  # sweep coordinates: machine x less the shift

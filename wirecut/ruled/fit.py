@@ -335,6 +335,7 @@ def fit_cut(
     skew_hint: tuple[np.ndarray, np.ndarray] | None = None,
     knots_at: np.ndarray | None = None,
     crease_lines: tuple[np.ndarray, np.ndarray] | None = None,
+    max_slope: float = MAX_SLOPE,
 ) -> RuledFit:
     """Fit a ruled cut between the faces ``z_left < z_right`` (mm, machine) to ``samples``.
 
@@ -377,6 +378,11 @@ def fit_cut(
         skew, so the cut follows the crease from face to face; the rulings between take
         skews that change by at most ``skew.CROSSING`` of their gaps. Lines whose skews no
         such cut can hold together (two creases meeting inside the block) are left out.
+    max_slope : float
+        Steepest plan slope |skew| / width of any ruling (at most ``skew.MAX_SLOPE``, 45 deg
+        from the wire): a ruling's two tower ends lie ``slope * span`` apart along the sweep,
+        so a machine bounds it (``MachineSpec.drivable_slope``), and a fit that leans its
+        rulings further than any blank can be driven is no fit for that machine.
 
     Returns
     -------
@@ -386,6 +392,7 @@ def fit_cut(
         raise JobError(f"fit needs z_left < z_right, got {z_left!r} and {z_right!r}")
     tol = float(tolerance.surface_mm)
     policy = Policy(tolerance.policy)
+    slope_cap = float(np.clip(max_slope, 0.0, MAX_SLOPE))
     pts = samples.points
     zin = (pts[:, 2] >= z_left - 1e-9) & (pts[:, 2] <= z_right + 1e-9)
     use = zin & ~samples.undercut
@@ -428,7 +435,7 @@ def fit_cut(
     if crease_lines is not None and len(crease_lines[0]):
         fixed_x, fixed_s = (np.asarray(v, float) for v in crease_lines)
         inside = (fixed_x > knots[0]) & (fixed_x < knots[-1])
-        inside &= np.abs(fixed_s) <= MAX_SLOPE * width + 1e-9
+        inside &= np.abs(fixed_s) <= slope_cap * width + 1e-9
         fixed_x, fixed_s = fixed_x[inside], fixed_s[inside]
     ridges = np.asarray(knots_at, float) if knots_at is not None else np.zeros(0)
     if len(ridges) or len(fixed_x):
@@ -476,7 +483,7 @@ def fit_cut(
         hi, lo = skew_seeds(x, yt, z, knots, h, z_mid, half)
         t_all = (z - z_left) / width
         end_lb, end_ub = end_bounds(x, t_all, knots)
-        reach = MAX_SLOPE * width
+        reach = slope_cap * width
         end_lb, end_ub = np.maximum(end_lb, -reach), np.minimum(end_ub, reach)
         pinned = np.isfinite(s_lo)
         end_lb[pinned], end_ub[pinned] = s_lo[pinned], s_hi[pinned]
