@@ -193,6 +193,18 @@ def test_three_samples_and_two_rulings_give_a_finite_cut_without_a_warning():
     assert fit.report.max_abs_mm < 1e-3
 
 
+def _turned_paraboloid(ang: float, k: float = 300.0):
+    """y = 300 + u w / k with (u, w) the (x, z) plane turned by ``ang``: a hyperbolic
+    paraboloid whose rulings u = const lean tan(ang) to the wire (z), and w = const cot(ang)."""
+
+    def f(x, z):
+        u = x * math.cos(ang) + z * math.sin(ang)
+        w = -x * math.sin(ang) + z * math.cos(ang)
+        return 300.0 + u * w / k
+
+    return f
+
+
 def test_rulings_past_the_blank_ends_fit_a_piece_as_well_as_its_strip():
     # a hyperbolic paraboloid y = u w / 300 turned 30 deg in the x-z plane: its rulings skew
     # tan 30 of the blank's width (87 mm over 150 mm), and the fit of a long strip finds them
@@ -200,12 +212,8 @@ def test_rulings_past_the_blank_ends_fit_a_piece_as_well_as_its_strip():
     # its end rulings' skew down to cover its corners (skew.end_bounds) and fits worse;
     # allowed to run past the ends by half the strip's skew (the split's pad, through the
     # waste beyond the outline) it fits as well as the strip
-    ang, k = math.radians(30.0), 300.0
-
-    def f(x, z):
-        u = x * math.cos(ang) + z * math.sin(ang)
-        w = -x * math.sin(ang) + z * math.cos(ang)
-        return 300.0 + u * w / k
+    ang = math.radians(30.0)
+    f = _turned_paraboloid(ang)
 
     zs = np.linspace(-75, 75, 16)
     whole = fit_cut(height_field_samples(f, np.linspace(-900, 900, 361), zs), -75.0, 75.0,
@@ -260,12 +268,8 @@ def test_no_ruling_leans_further_than_the_slope_the_machine_allows():
     # clearances). Held to that slope, no ruling leans further, and the fit is worse for it
     from wirecut.config import MachineSpec
 
-    ang, k = math.radians(40.0), 300.0
-
-    def f(x, z):
-        u = x * math.cos(ang) + z * math.sin(ang)
-        w = -x * math.sin(ang) + z * math.cos(ang)
-        return 300.0 + u * w / k
+    ang = math.radians(40.0)
+    f = _turned_paraboloid(ang)
 
     samples = height_field_samples(f, np.linspace(-300, 300, 121), np.linspace(-75, 75, 16))
     free = fit_cut(samples, -75.0, 75.0, EYE, ToleranceSpec(0.5), x_range=(-400.0, 400.0))
