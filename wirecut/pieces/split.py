@@ -964,17 +964,18 @@ def _shorter(fit_part, item, one, wide, sweep, job, fitter_parallel, judge, hold
     ``one`` but one the towers cannot follow), else ``one``'s own. ``one`` itself stays
     unless all of these hold:
     - the best cut is skewed and within the tolerance;
-    - no program can drive it (:func:`tower_overrun_mm`, then ``judge``);
+    - no program can drive it (:func:`tower_overrun_mm`, then ``judge.drivable``);
     - what can be driven on one blank leaves more than the fit's share ``hold`` (mm) of the
-      tolerance, and more than the tolerance once driven (``judge``): ``one``'s own cut
-      where that is drivable within the tolerance and ``wide`` was the best, else parallel
-      rulings.
+      tolerance, and more than the tolerance once driven (``judge.replayed``): ``one``'s own
+      cut where that is drivable within the tolerance and ``wide`` was the best, else
+      parallel rulings.
     Then it is the fewest equal parts along the sweep (2 to ``_SHORTER_PARTS``, none shorter
     than the minimum width) whose own fits, started from the best cut's skew, all stay
-    within ``hold`` or the best cut's deviation and whose own programs (``judge``) can all
-    be driven; or else the fewest whose programs all stay within the tolerance once
-    replayed. A shorter blank stands nearer the
-    middle of the travel, and its end rulings swing the towers less far out.
+    within ``hold`` or the best cut's deviation and whose own programs can all be driven
+    (``judge.drivable``); or else the fewest whose programs all stay within the tolerance
+    once replayed (``judge.replayed``, asked only when every part can be driven). A shorter
+    blank stands nearer the middle of the travel, and its end rulings swing the towers less
+    far out.
 
     Returns (pieces, why): ``why`` is None for ``one`` itself, else (the towers' estimated
     overrun of the best cut on one blank, mm; the deviation of what could be driven, mm)."""
